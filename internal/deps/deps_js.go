@@ -1,0 +1,5 @@
+//go:build js && wasm
+
+package deps
+
+import _ "github.com/hajimehoshi/ebiten/v2"

@@ -2,18 +2,47 @@ package lens
 
 import (
 	"errors"
+	"fmt"
 	"math"
 )
 
-// STUB FILE owned by the binary-lens helper: replace every body; keep the signatures.
-
-// Binary is a two-point-mass lens in the frame of the package doc.
+// Binary is a two-point-mass lens in the frame of the package doc: separation S
+// (θE of the total mass) and mass ratio Q = m2/m1. Build one with NewBinary, which
+// checks the values; a Binary literal with invalid fields makes every solver call
+// return an error.
 type Binary struct {
 	S, Q float64
 }
 
-// NewBinary validates s and q (both finite, > 0).
-func NewBinary(s, q float64) (Binary, error) { return Binary{S: s, Q: q}, nil }
+// NewBinary validates s and q (both finite, > 0). q > 1 is allowed: it means the
+// heavier body sits on the positive real axis.
+func NewBinary(s, q float64) (Binary, error) {
+	b := Binary{S: s, Q: q}
+	return b, b.validate()
+}
+
+func (b Binary) validate() error {
+	switch {
+	case math.IsNaN(b.S) || math.IsInf(b.S, 0):
+		return fmt.Errorf("lens: binary separation s = %v is not finite", b.S)
+	case b.S <= 0:
+		return fmt.Errorf("lens: binary separation s = %v must be > 0", b.S)
+	case math.IsNaN(b.Q) || math.IsInf(b.Q, 0):
+		return fmt.Errorf("lens: binary mass ratio q = %v is not finite", b.Q)
+	case b.Q <= 0:
+		return fmt.Errorf("lens: binary mass ratio q = %v must be > 0", b.Q)
+	}
+	return nil
+}
+
+// Lenses returns the positions on the real axis (θE) and the mass fractions of
+// the primary (z1, m1) and the secondary (z2, m2): z1 = −qs/(1+q), z2 = s/(1+q),
+// m1 = 1/(1+q), m2 = q/(1+q), so that m1 + m2 = 1 and m1·z1 + m2·z2 = 0.
+func (b Binary) Lenses() (z1, z2, m1, m2 float64) {
+	m1 = 1 / (1 + b.Q)
+	m2 = b.Q / (1 + b.Q)
+	return -m2 * b.S, m1 * b.S, m1, m2
+}
 
 // Image is one image of a point source.
 type Image struct {
@@ -24,24 +53,377 @@ type Image struct {
 // ErrImages reports that the images found are not a valid set (count not 3 or 5).
 var ErrImages = errors.New("lens: binary image count is not 3 or 5")
 
+// maxImageMag caps |1/det J| of a single image. A point source exactly on a
+// caustic has an infinite magnification; the cap keeps results finite. It is
+// reached only within ~1e-24 θE of a fold (|det J| grows like the square root
+// of the distance), far below the position precision of float64.
+const maxImageMag = 1e12
+
 // Solver finds the images of a binary lens; it keeps the previous roots to warm
 // start the next source position (reuse one Solver along a trajectory).
 // A Solver is not safe for concurrent use.
+//
+// Method. The images are the roots of the complex fifth-degree lens polynomial
+// of Witt (1990, A&A 236, 311) that also satisfy the lens equation. The five
+// roots are found together by the Aberth–Ehrlich iteration (Aberth 1973, Math.
+// Comp. 27, 339; Ehrlich 1967, Comm. ACM 10, 107) started from the roots of the
+// previous call, which along a trajectory converges in two or three sweeps.
+// Each root is then polished by Newton's method on the lens equation itself (a
+// 2×2 real system, solved in closed form with det J), which restores the
+// digits the polynomial loses near planetary caustics. A root is an image when
+// its polished lens-equation residual is at round-off level; spurious roots keep
+// residuals many orders larger. The accepted set must have 3 or 5 members and
+// satisfy the image-parity rule n− − n+ = 1 of a two-point-mass lens (Burke
+// 1981, ApJ 244, L1); otherwise the solver retries from a cold start and then
+// reports ErrImages.
+//
+// Within about 1e-12 θE of a caustic the image count is decided by round-off
+// (the source position itself is no more precise than that); the total
+// magnification there is dominated by the merging pair either way.
 type Solver struct {
-	b Binary
+	b      Binary
+	err    error   // validation error of b
+	z1, z2 float64 // lens positions
+	m1, m2 float64 // mass fractions
+
+	c     [6]complex128 // polynomial coefficients, c[k] multiplies z^k
+	deg   int           // 5, or 4 when the source sits exactly on a lens
+	roots [5]complex128 // current polynomial roots (the warm start)
+	warm  bool
+	imgs  [5]Image // scratch for Mag
+
+	// Stats counts solver work since the last Reset: calls, Aberth sweeps and
+	// cold restarts. Tests and benchmarks read it.
+	Stats SolverStats
+}
+
+// SolverStats counts the work done by a Solver.
+type SolverStats struct {
+	Calls, Sweeps, Cold, Retries int
 }
 
 // NewSolver returns a solver for b.
-func NewSolver(b Binary) *Solver { return &Solver{b: b} }
+func NewSolver(b Binary) *Solver {
+	s := &Solver{}
+	s.setBinary(b)
+	return s
+}
+
+func (s *Solver) setBinary(b Binary) {
+	s.b = b
+	s.err = b.validate()
+	s.z1, s.z2, s.m1, s.m2 = b.Lenses()
+}
 
 // SetBinary changes the lens (orbital motion) keeping the warm start.
-func (s *Solver) SetBinary(b Binary) { s.b = b }
+func (s *Solver) SetBinary(b Binary) { s.setBinary(b) }
 
-// Reset forgets the warm start.
-func (s *Solver) Reset() {}
+// Binary returns the lens the solver works on.
+func (s *Solver) Binary() Binary { return s.b }
 
-// Images appends the true images of source position zeta to dst[:0].
-func (s *Solver) Images(dst []Image, zeta complex128) ([]Image, error) { return dst[:0], nil }
+// Reset forgets the warm start (and zeroes Stats).
+func (s *Solver) Reset() {
+	s.warm = false
+	s.Stats = SolverStats{}
+}
+
+// Images appends the true images of source position zeta to dst[:0]. With
+// cap(dst) ≥ 5 it does not allocate. On error it returns dst[:0].
+func (s *Solver) Images(dst []Image, zeta complex128) ([]Image, error) {
+	dst = dst[:0]
+	if s.err != nil {
+		return dst, s.err
+	}
+	if !finite(real(zeta)) || !finite(imag(zeta)) {
+		return dst, fmt.Errorf("lens: source position %v is not finite", zeta)
+	}
+	s.Stats.Calls++
+	s.coefficients(zeta)
+	// Attempt 0: warm start (when available). Attempt 1 and 2: cold starts from
+	// two different initial rings, with more sweeps allowed.
+	for attempt := 0; attempt < 3; attempt++ {
+		if attempt == 0 && !s.warm {
+			continue
+		}
+		if attempt > 0 {
+			s.coldStart(attempt)
+			s.Stats.Cold++
+			if attempt > 1 {
+				s.Stats.Retries++
+			}
+		}
+		maxSweeps := 60
+		if attempt == 2 {
+			maxSweeps = 400
+		}
+		sweeps, ok := aberth(&s.c, s.deg, &s.roots, maxSweeps)
+		s.Stats.Sweeps += sweeps
+		if !ok {
+			continue
+		}
+		out, ok := s.select_(dst, zeta)
+		if ok {
+			s.warm = true
+			return out, nil
+		}
+	}
+	s.warm = false
+	return dst, fmt.Errorf("%w (s = %v, q = %v, source %v)", ErrImages, s.b.S, s.b.Q, zeta)
+}
 
 // Mag is the point-source magnification at zeta: Σ|Mag| over the true images.
-func (s *Solver) Mag(zeta complex128) (float64, error) { return math.NaN(), nil }
+func (s *Solver) Mag(zeta complex128) (float64, error) {
+	imgs, err := s.Images(s.imgs[:0], zeta)
+	if err != nil {
+		return 0, err
+	}
+	a := 0.0
+	for _, im := range imgs {
+		a += math.Abs(im.Mag)
+	}
+	return a, nil
+}
+
+func finite(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }
+
+// coefficients fills s.c and s.deg with the lens polynomial of Witt (1990) for
+// source zeta, in the construction of references.md §3: with D = (z−z1)(z−z2),
+// N = m1(z−z2) + m2(z−z1) and Pi = (ζ̄ − zi)D + N,
+// p(z) = (z − ζ)P1P2 − D(m1P2 + m2P1).
+// It follows from the conjugated lens equation z̄ = ζ̄ + N/D, which gives
+// z̄ − zi = Pi/D, substituted into the lens equation.
+func (s *Solver) coefficients(zeta complex128) {
+	a, b, m1, m2 := s.z1, s.z2, s.m1, s.m2
+	zb := complex(real(zeta), -imag(zeta))
+	// D = z² − (a+b)z + ab (real coefficients).
+	d1, d0 := -(a + b), a*b
+	// N = z − (m1 b + m2 a).
+	n0 := -(m1*b + m2*a)
+	w1, w2 := zb-complex(a, 0), zb-complex(b, 0)
+	// P1 = w1 z² + (w1 d1 + 1) z + (w1 d0 + n0); likewise P2.
+	p12, p11, p10 := w1, w1*complex(d1, 0)+1, w1*complex(d0, 0)+complex(n0, 0)
+	p22, p21, p20 := w2, w2*complex(d1, 0)+1, w2*complex(d0, 0)+complex(n0, 0)
+	// Q = P1·P2 (degree 4).
+	q4 := p12 * p22
+	q3 := p12*p21 + p11*p22
+	q2 := p12*p20 + p11*p21 + p10*p22
+	q1 := p11*p20 + p10*p21
+	q0 := p10 * p20
+	// R = m1 P2 + m2 P1 (degree 2).
+	cm1, cm2 := complex(m1, 0), complex(m2, 0)
+	r2 := cm1*p22 + cm2*p12
+	r1 := cm1*p21 + cm2*p11
+	r0 := cm1*p20 + cm2*p10
+	// (z − ζ)Q − D·R.
+	cd1, cd0 := complex(d1, 0), complex(d0, 0)
+	s.c[5] = q4
+	s.c[4] = q3 - zeta*q4 - r2
+	s.c[3] = q2 - zeta*q3 - (r1 + cd1*r2)
+	s.c[2] = q1 - zeta*q2 - (r0 + cd1*r1 + cd0*r2)
+	s.c[1] = q0 - zeta*q1 - (cd1*r0 + cd0*r1)
+	s.c[0] = -zeta*q0 - cd0*r0
+	s.deg = 5
+	if s.c[5] == 0 {
+		// The source sits exactly on a lens: one root went to infinity.
+		s.deg = 4
+	}
+}
+
+// coldStart places the initial roots. Attempt 1 uses the physical picture of
+// a binary lens (images near the source, near each lens and on the Einstein
+// ring); attempt 2 uses the classical Aberth ring around the root centroid.
+func (s *Solver) coldStart(attempt int) {
+	n := s.deg
+	// Root centroid and a radius from the Fujiwara-type bound on the monic
+	// polynomial shifted to the centroid (computed on unshifted coefficients;
+	// only the order of magnitude matters).
+	lead := s.c[n]
+	cen := -s.c[n-1] / (complex(float64(n), 0) * lead)
+	r := 0.0
+	for k := 1; k <= n; k++ {
+		v := math.Pow(cabs(s.c[n-k]/lead), 1/float64(k))
+		if v > r {
+			r = v
+		}
+	}
+	if !(r > 0) || math.IsInf(r, 0) {
+		r = 1
+	}
+	if attempt == 1 {
+		r *= 0.5
+	}
+	off := 0.4 + 0.7*float64(attempt)
+	for k := 0; k < n; k++ {
+		sn, cs := math.Sincos(2*math.Pi*float64(k)/float64(n) + off)
+		s.roots[k] = cen + complex(r*cs, r*sn)
+	}
+}
+
+// cabs is |z| without the overflow care of cmplx.Abs (arguments here are far
+// from the float64 limits).
+func cabs(z complex128) float64 { return math.Sqrt(real(z)*real(z) + imag(z)*imag(z)) }
+
+// cinv is 1/z in plain real arithmetic (the runtime's complex division also
+// handles infinities, which we never have, and is several times slower).
+func cinv(z complex128) complex128 {
+	x, y := real(z), imag(z)
+	d := x*x + y*y
+	return complex(x/d, -y/d)
+}
+
+// cdiv is a/b, see cinv.
+func cdiv(a, b complex128) complex128 {
+	x, y := real(b), imag(b)
+	d := x*x + y*y
+	return complex((real(a)*x+imag(a)*y)/d, (imag(a)*x-real(a)*y)/d)
+}
+
+// aberth runs Gauss–Seidel Aberth–Ehrlich sweeps on the polynomial c of degree
+// n (4 or 5) starting from roots[:n] until every correction is below 1e-13 of
+// its root (or of the root scale for roots near 0). It reports the sweeps done
+// and whether it converged to finite values.
+func aberth(c *[6]complex128, n int, roots *[5]complex128, maxSweeps int) (int, bool) {
+	// Monic coefficients.
+	var a [6]complex128
+	inv := cinv(c[n])
+	for k := 0; k < n; k++ {
+		a[k] = c[k] * inv
+	}
+	a[n] = 1
+	scale := 0.0
+	for k := 0; k < n; k++ {
+		if v := cabs(roots[k]); v > scale {
+			scale = v
+		}
+	}
+	floor := 1e-300 + 1e-30*scale
+	var done [5]bool
+	for sweep := 1; sweep <= maxSweeps; sweep++ {
+		all := true
+		for k := 0; k < n; k++ {
+			if done[k] {
+				continue
+			}
+			z := roots[k]
+			// Horner for p and p'.
+			p := a[n]
+			dp := complex(0, 0)
+			az := cabs(z)
+			bound := 1.0 // Σ|a_j||z|^j, the round-off scale of p(z)
+			for j := n - 1; j >= 0; j-- {
+				dp = dp*z + p
+				p = p*z + a[j]
+				bound = bound*az + cabs(a[j])
+			}
+			if cabs(p) <= 1e-15*bound {
+				// p(z) is zero to round-off: no further digits to gain.
+				done[k] = true
+				continue
+			}
+			ratio := cdiv(p, dp)
+			var sum complex128
+			for j := 0; j < n; j++ {
+				if j != k {
+					sum += cinv(z - roots[j])
+				}
+			}
+			w := cdiv(ratio, 1-ratio*sum)
+			if !finite(real(w)) || !finite(imag(w)) {
+				return sweep, false
+			}
+			roots[k] = z - w
+			aw := cabs(w)
+			if aw <= 1e-13*az || aw <= floor {
+				done[k] = true
+			} else {
+				all = false
+			}
+		}
+		if all {
+			return sweep, true
+		}
+	}
+	// Not every correction fell below the threshold (clustered roots stall at
+	// round-off); the roots are still usable if finite, and the lens-equation
+	// test decides.
+	return maxSweeps, true
+}
+
+// select_ polishes each root on the lens equation, keeps the true images and
+// checks the set. It appends the images to dst and reports whether the set is
+// valid.
+func (s *Solver) select_(dst []Image, zeta complex128) ([]Image, bool) {
+	z1, z2, m1, m2 := complex(s.z1, 0), complex(s.z2, 0), s.m1, s.m2
+	npos, nneg := 0, 0
+	for k := 0; k < s.deg; k++ {
+		z := s.roots[k]
+		var f, e complex128
+		var det, res, sc float64
+		accepted := false
+		for it := 0; it < 6; it++ {
+			h1, h2 := cinv(z-z1), cinv(z-z2)
+			g := complex(m1, 0)*h1 + complex(m2, 0)*h2
+			e = complex(m1, 0)*h1*h1 + complex(m2, 0)*h2*h2
+			f = z - zeta - complex(real(g), -imag(g))
+			det = 1 - (real(e)*real(e) + imag(e)*imag(e))
+			res = cabs(f)
+			// Round-off scale of the residual: the size of its terms.
+			sc = cabs(z) + cabs(zeta) + m1*cabs(h1) + m2*cabs(h2)
+			if res <= 4e-16*sc && it > 0 {
+				accepted = true
+				break
+			}
+			if it == 0 && res > 1e-3*sc {
+				break // clearly spurious: leave it alone
+			}
+			if det == 0 {
+				break
+			}
+			// Newton step on f(z, z̄) = 0: δz + E δz̄ = −f with E = ē, solved
+			// as δz = (−f + ē f̄)/(1 − |e|²) (conj(e·f) = ē f̄).
+			ef := e * f
+			step := cdiv(complex(-real(f)+real(ef), -imag(f)-imag(ef)), complex(det, 0))
+			z += step
+			if cabs(step) <= 1e-15*cabs(z) {
+				// Converged in position; judge by the residual there.
+				h1, h2 = cinv(z-z1), cinv(z-z2)
+				g = complex(m1, 0)*h1 + complex(m2, 0)*h2
+				e = complex(m1, 0)*h1*h1 + complex(m2, 0)*h2*h2
+				f = z - zeta - complex(real(g), -imag(g))
+				det = 1 - (real(e)*real(e) + imag(e)*imag(e))
+				res = cabs(f)
+				sc = cabs(z) + cabs(zeta) + m1*cabs(h1) + m2*cabs(h2)
+				accepted = res <= 1e-12*sc
+				break
+			}
+		}
+		if !accepted && res <= 1e-12*sc && det != 0 {
+			accepted = true
+		}
+		if !accepted {
+			continue
+		}
+		// Reject a duplicate (two roots polished onto one image).
+		for _, im := range dst {
+			if cabs(im.Z-z) <= 1e-10*(1+cabs(z)) {
+				return dst[:0], false
+			}
+		}
+		mag := 1 / det
+		if math.Abs(mag) > maxImageMag || !finite(mag) {
+			mag = math.Copysign(maxImageMag, det)
+		}
+		if mag > 0 {
+			npos++
+		} else {
+			nneg++
+		}
+		dst = append(dst, Image{Z: z, Mag: mag})
+		s.roots[k] = z
+	}
+	n := len(dst)
+	if (n != 3 && n != 5) || nneg-npos != 1 {
+		return dst[:0], false
+	}
+	return dst, true
+}

@@ -59,7 +59,6 @@ var ErrImages = errors.New("lens: binary image count is not 3 or 5")
 // of the distance), far below the position precision of float64.
 const maxImageMag = 1e12
 
-
 // Solver finds the images of a binary lens; it keeps the previous roots to warm
 // start the next source position (reuse one Solver along a trajectory).
 // A Solver is not safe for concurrent use.

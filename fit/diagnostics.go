@@ -18,7 +18,8 @@ type Diagnostics struct {
 	// Kept is the number of stored steps after burn-in.
 	Kept int
 	// Tau is the integrated autocorrelation time per parameter after burn-in,
-	// in stored steps (multiply by Chain.Thin for ensemble steps); see IntegratedTime.
+	// in ensemble steps (measured on the stored steps, times Chain.Thin); see
+	// IntegratedTime.
 	Tau []float64
 	// TauRelErr is the relative standard error of each Tau (Sokal's estimate).
 	TauRelErr []float64
@@ -51,21 +52,11 @@ type Diagnostics struct {
 	// Reasons says in words why the chain is not converged (empty when it is).
 	Reasons []string
 
-	thin     int  // Chain.Thin, to convert τ to steps
 	lengthOK bool // every parameter's kept chain is ≥ MinTauMultiple·τ
 }
 
-// stepTau returns τ in ensemble steps.
-func (d *Diagnostics) stepTau() []float64 {
-	if d.Tau == nil {
-		return nil
-	}
-	out := make([]float64, len(d.Tau))
-	for i, t := range d.Tau {
-		out[i] = t * float64(max(d.thin, 1))
-	}
-	return out
-}
+// stepTau returns a copy of τ in ensemble steps.
+func (d *Diagnostics) stepTau() []float64 { return slices.Clone(d.Tau) }
 
 // reached reports whether every parameter has at least target effective
 // samples and the early-stop conditions of Diagnose hold.
@@ -89,7 +80,7 @@ func Diagnose(c *Chain) Diagnostics {
 
 func diagnose(c *Chain, withRHat bool) Diagnostics {
 	set := c.Settings.withDefaults(c.Dim)
-	d := Diagnostics{Acceptance: c.Acceptance(), thin: c.Thin}
+	d := Diagnostics{Acceptance: c.Acceptance()}
 	d.StuckWalkers = stuckWalkers(c.Accepted)
 	var reasons []string
 	if c.Status == ChainCancelled {
@@ -131,7 +122,7 @@ func diagnose(c *Chain, withRHat bool) Diagnostics {
 	d.lengthOK = true
 	for p := range c.Dim {
 		e := tauOn(p, d.Burn)
-		d.Tau[p], d.TauRelErr[p], d.TauSettled[p] = e.Tau, e.RelErr, e.Settled
+		d.Tau[p], d.TauRelErr[p], d.TauSettled[p] = e.Tau*float64(c.Thin), e.RelErr, e.Settled
 		d.ESS[p] = float64(c.Walkers*d.Kept) / e.Tau
 		if !e.Settled {
 			reasons = append(reasons, fmt.Sprintf("parameter %d: autocorrelation window never settled (Sokal's criterion unmet): τ ≥ %.3g steps is a lower bound", p, e.Tau*float64(c.Thin)))

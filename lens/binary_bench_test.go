@@ -50,3 +50,19 @@ func BenchmarkBinaryMagCold(b *testing.B) {
 		sinkF += a
 	}
 }
+
+// BenchmarkBinaryMagEigenBaseline is the simple baseline of the two benchmarks
+// above: the gonum companion-matrix eigen solver of binary_eigen_test.go (one
+// frame, the lighter lens) with lens-equation polishing, on the same path.
+func BenchmarkBinaryMagEigenBaseline(b *testing.B) {
+	zs := benchTrajectory(3000)
+	b.ReportAllocs()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		a := 0.0
+		for _, im := range eigenImages(1.1, 1e-3, zs[i%len(zs)]) {
+			a += math.Abs(im.Mag)
+		}
+		sinkF += a
+	}
+}

@@ -37,6 +37,13 @@ type Provenance struct {
 	File     string    // file name as given by the user
 	Rejected []Problem // rows not accepted, each with its line and reason
 	Notes    []string  // non-fatal observations (ignored columns, proposed time offset)
+
+	// Lines accounts for every line of the source file (see LineCount).
+	Lines LineCount
+	// Options are the import choices the user confirmed (columns, kind, time
+	// offset, zero point), kept so the same file can be re-read identically,
+	// e.g. when a model link asks for the data again.
+	Options ImportOptions
 }
 
 // Problem is one issue found in an input file.

@@ -13,8 +13,8 @@ import (
 
 // GridSettings configures the binary-lens grid search over (log10 s, log10 q).
 // The zero value is the default grid: log s ∈ [−1, 1] and log q ∈ [−6, 0] with
-// 31×31 nodes, 8 α seeds per node, point source, Nelder–Mead with 80 χ²
-// evaluations per seed.
+// 31×31 nodes, 8 α seeds per node, the best 2 of them polished by
+// Nelder–Mead with 40 χ² evaluations each, point source.
 type GridSettings struct {
 	// LogSMin, LogSMax bound log10 s; both 0 means −1, 1.
 	LogSMin float64 `json:"logSMin"`
@@ -41,7 +41,10 @@ type GridSettings struct {
 	// which reaches a useful node minimum in fewer evaluations than
 	// Levenberg–Marquardt's Jacobians on 5 parameters (measured, see README).
 	Method Method `json:"method"`
-	// MaxEval caps χ² evaluations per α seed; 0 means 80.
+	// Polish is how many of the best α seeds (after one χ² evaluation each at
+	// the start values) are optimised; 0 means 2.
+	Polish int `json:"polish"`
+	// MaxEval caps χ² evaluations per polished seed; 0 means 40.
 	MaxEval int `json:"maxEval"`
 	// Tol is the χ² change counted as converged at a node; 0 means 0.05.
 	Tol float64 `json:"tol"`
@@ -67,8 +70,11 @@ func (s GridSettings) withDefaults() GridSettings {
 	if s.Method == MethodDefault {
 		s.Method = NelderMead
 	}
+	if s.Polish == 0 {
+		s.Polish = 2
+	}
 	if s.MaxEval == 0 {
-		s.MaxEval = 80
+		s.MaxEval = 40
 	}
 	if s.Tol == 0 {
 		s.Tol = 0.05
@@ -78,8 +84,8 @@ func (s GridSettings) withDefaults() GridSettings {
 
 func (s GridSettings) validate() error {
 	switch {
-	case s.NS < 1 || s.NQ < 1 || s.Alphas < 1 || s.MaxEval < 1:
-		return fmt.Errorf("fit: grid sizes ns=%d nq=%d alphas=%d maxEval=%d must be >= 1", s.NS, s.NQ, s.Alphas, s.MaxEval)
+	case s.NS < 1 || s.NQ < 1 || s.Alphas < 1 || s.MaxEval < 1 || s.Polish < 0:
+		return fmt.Errorf("fit: grid sizes ns=%d nq=%d alphas=%d polish=%d maxEval=%d must be >= 1", s.NS, s.NQ, s.Alphas, s.Polish, s.MaxEval)
 	case !(s.LogSMin <= s.LogSMax) || !(s.LogQMin <= s.LogQMax):
 		return fmt.Errorf("fit: grid ranges log s [%v, %v], log q [%v, %v] are reversed", s.LogSMin, s.LogSMax, s.LogQMin, s.LogQMax)
 	case s.LogQMax > 0:
@@ -167,8 +173,11 @@ func ChunkNodes(total, c, n int) []int {
 
 // RunGridChunk computes chunk (0-based) of nChunks of the grid of set around
 // start (t0, u0, tE and ρ seed the nodes; a single-lens fit's best parameters).
-// Each node is optimised over t0, u0, tE, α (and ρ with FreeRho) with s and q
-// fixed, from each α seed, and keeps the best. A node's result depends only on
+// At each node every α seed is evaluated at the start's t0, u0, tE (with the
+// central-caustic reference point these stay close to the single-lens values
+// for planetary perturbations); the best Polish seeds are then optimised over
+// t0, u0, tE, α (and ρ with FreeRho) with s and q fixed, and the node keeps the
+// lowest χ². A node's result depends only on
 // the event, start, settings and the node itself, so merging the chunks with
 // MergeGrid gives exactly the grid of a single chunk. progress, if not nil, is
 // called after each node (from the calling goroutine). A cancelled ctx returns
@@ -205,13 +214,36 @@ func RunGridChunk(ctx context.Context, ev *Event, start lens.Params, set GridSet
 			return g, nil
 		}
 		nd := &g.Nodes[k]
-		best := math.Inf(1)
-		cancelled := false
-		for _, a := range alphas {
+		l.ResetSolver()
+		// 1. every α seed at the start values; 2. polish the best few.
+		seeds := make([]lens.Params, len(alphas))
+		chis := make([]float64, len(alphas))
+		order := make([]int, len(alphas))
+		for i, a := range alphas {
 			p := start
 			p.S, p.Q, p.Alpha, p.Rho = math.Pow(10, nd.LogS), math.Pow(10, nd.LogQ), a, rho
-			l.ResetSolver()
-			sol, err := Optimize(ctx, l, p, specs, opt)
+			seeds[i], order[i] = p, i
+			c, err := l.Chi2(&p)
+			nd.Evals++
+			if err != nil {
+				c = math.Inf(1)
+				nd.Err = err.Error()
+			}
+			chis[i] = c
+		}
+		sort.SliceStable(order, func(i, j int) bool { return chis[order[i]] < chis[order[j]] })
+		best := math.Inf(1)
+		for _, i := range order {
+			if chis[i] < best {
+				best, nd.Params = chis[i], seeds[i]
+			}
+		}
+		cancelled := false
+		for _, i := range order[:min(set.Polish, len(order))] {
+			if math.IsInf(chis[i], 1) {
+				break
+			}
+			sol, err := Optimize(ctx, l, seeds[i], specs, opt)
 			if sol != nil {
 				nd.Evals += sol.Evals
 			}

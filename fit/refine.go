@@ -159,3 +159,32 @@ func linearParams(ev *Event) int {
 	}
 	return n
 }
+
+// Chi2Gradient returns ∂χ²/∂x at p in the coordinates of sp, computed as 2Jᵀr
+// from the central-difference Jacobian of the normalised residuals (the
+// gradient Levenberg–Marquardt uses implicitly). For checks and diagnostics.
+func Chi2Gradient(l *Likelihood, sp *Space, p lens.Params) []float64 {
+	o := newObjective(context.Background(), l, sp, p, math.MaxInt)
+	n, N := sp.Dim(), l.N()
+	r0 := make([]float64, N)
+	rp := make([]float64, N)
+	rm := make([]float64, N)
+	y := make([]float64, n)
+	o.residuals(r0, y)
+	g := make([]float64, n)
+	h := o.fdStep
+	for j := 0; j < n; j++ {
+		y[j] = h
+		o.residuals(rp, y)
+		y[j] = -h
+		o.residuals(rm, y)
+		y[j] = 0
+		s := 0.0
+		for i := 0; i < N; i++ {
+			s += r0[i] * (rp[i] - rm[i]) / (2 * h * o.h[j])
+		}
+		g[j] = 2 * s
+	}
+	_, _ = l.Chi2(&p)
+	return g
+}

@@ -13,12 +13,13 @@ import (
 // kept (post-burn-in) part of a chain; Map turns sampler coordinates into
 // physical ones (log10 s → s, radians → degrees) for summaries and exports.
 type Samples struct {
-	Mode  string
-	Names []string  // column names, e.g. "tE"
-	Units []string  // units per column ("d", "deg", "" for dimensionless)
-	X     []float64 // row-major, N × len(Names)
-	LogP  []float64 // ln π per row
-	Chi2  []float64 // χ² per row, nil when unknown
+	Mode    string
+	Walkers int       // walkers per stored step (rows are step-major)
+	Names   []string  // column names, e.g. "tE"
+	Units   []string  // units per column ("d", "deg", "" for dimensionless)
+	X       []float64 // row-major, N × len(Names)
+	LogP    []float64 // ln π per row
+	Chi2    []float64 // χ² per row, nil when unknown
 	// Param maps each column to the sampler parameter it is a one-to-one
 	// function of (−1 if none), so its autocorrelation diagnostics apply.
 	Param []int
@@ -69,9 +70,9 @@ func (c *Chain) Samples(names, units []string) (*Samples, error) {
 		units = make([]string, c.Dim)
 	}
 	from := c.Diagnostics.Burn
-	s := &Samples{Mode: c.Mode, Names: slices.Clone(names), Units: slices.Clone(units),
-		X:    slices.Clone(c.X[from*c.Walkers*c.Dim : c.Stored*c.Walkers*c.Dim]),
-		LogP: slices.Clone(c.LogP[from*c.Walkers : c.Stored*c.Walkers]),
+	s := &Samples{Mode: c.Mode, Walkers: c.Walkers, Names: slices.Clone(names), Units: slices.Clone(units),
+		X:     slices.Clone(c.X[from*c.Walkers*c.Dim : c.Stored*c.Walkers*c.Dim]),
+		LogP:  slices.Clone(c.LogP[from*c.Walkers : c.Stored*c.Walkers]),
 		Param: make([]int, c.Dim), Diagnostics: c.Diagnostics, Status: c.Status}
 	if c.Chi2 != nil {
 		s.Chi2 = slices.Clone(c.Chi2[from*c.Walkers : c.Stored*c.Walkers])
@@ -96,7 +97,7 @@ func (s *Samples) Map(names, units []string, param []int, f func(dst, x []float6
 	if len(units) != d || len(param) != d {
 		panic("fit: Map names, units and param lengths differ")
 	}
-	out := &Samples{Mode: s.Mode, Names: slices.Clone(names), Units: slices.Clone(units), X: make([]float64, n*d),
+	out := &Samples{Mode: s.Mode, Walkers: s.Walkers, Names: slices.Clone(names), Units: slices.Clone(units), X: make([]float64, n*d),
 		LogP: s.LogP, Chi2: s.Chi2, Param: slices.Clone(param), Diagnostics: s.Diagnostics, Status: s.Status}
 	for i := range n {
 		f(out.X[i*d:(i+1)*d], s.Row(i))

@@ -406,7 +406,7 @@ func (s *Solver) select_(dst []Image, zeta complex128) ([]Image, bool) {
 			det = 1 - (real(e)*real(e) + imag(e)*imag(e))
 			res = cabs(f)
 			sc = resScale(z, zeta, h1, h2, m1, m2)
-			if res <= 4e-16*sc && it > 0 {
+			if res <= 4e-16*sc {
 				accepted = true
 				break
 			}

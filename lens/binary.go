@@ -396,7 +396,7 @@ func (s *Solver) select_(dst []Image, zeta complex128) ([]Image, bool) {
 	for k := 0; k < s.deg; k++ {
 		z := s.roots[k]
 		var f, e complex128
-		var det, res, sc float64
+		var det, res, sc, terms float64
 		accepted := false
 		for it := 0; it < 6; it++ {
 			h1, h2 := cinv(z-z1), cinv(z-z2)
@@ -405,7 +405,7 @@ func (s *Solver) select_(dst []Image, zeta complex128) ([]Image, bool) {
 			f = z - zeta - complex(real(g), -imag(g))
 			det = 1 - (real(e)*real(e) + imag(e)*imag(e))
 			res = cabs(f)
-			sc = resScale(z, zeta, h1, h2, m1, m2)
+			sc, terms = resScale(z, zeta, h1, h2, m1, m2)
 			if res <= 4e-16*sc {
 				accepted = true
 				break
@@ -429,13 +429,16 @@ func (s *Solver) select_(dst []Image, zeta complex128) ([]Image, bool) {
 				f = z - zeta - complex(real(g), -imag(g))
 				det = 1 - (real(e)*real(e) + imag(e)*imag(e))
 				res = cabs(f)
-				sc = resScale(z, zeta, h1, h2, m1, m2)
+				sc, terms = resScale(z, zeta, h1, h2, m1, m2)
 				accepted = res <= 1e-12*sc
 				break
 			}
 		}
 		if !accepted && res <= 1e-12*sc && det != 0 {
 			accepted = true
+		}
+		if res > 1e-8*terms {
+			accepted = false
 		}
 		if !accepted {
 			continue
@@ -473,7 +476,14 @@ func (s *Solver) select_(dst []Image, zeta complex128) ([]Image, bool) {
 // resScale is the round-off scale of the lens-equation residual at z: the size
 // of its terms plus the effect of rounding z itself, |z|·(1 + |∂ζ/∂z̄|) with
 // |∂ζ/∂z̄| ≤ Σ mi|hi|², hi = 1/(z − zi). Near a lens the second part dominates.
-func resScale(z, zeta, h1, h2 complex128, m1, m2 float64) float64 {
+//
+// terms is the size of the terms alone. A true image cancels them; a spurious
+// root sitting on a lens (it exists when the source is exactly on that lens)
+// has a residual as large as the diverging term and an even larger rounding
+// scale, so acceptance also asks res ≤ 1e-8·terms.
+func resScale(z, zeta, h1, h2 complex128, m1, m2 float64) (sc, terms float64) {
 	a1, a2 := cabs(h1), cabs(h2)
-	return cabs(z)*(1+m1*a1*a1+m2*a2*a2) + cabs(zeta) + m1*a1 + m2*a2
+	az := cabs(z)
+	terms = az + cabs(zeta) + m1*a1 + m2*a2
+	return terms + az*(m1*a1*a1+m2*a2*a2), terms
 }

@@ -35,7 +35,21 @@ type SingleResult struct {
 	PreferFinite bool       `json:"preferFinite"`
 	Residuals    []Residual `json:"residuals"` // of the preferred fit
 	Anomaly      Anomaly    `json:"anomaly"`   // of the preferred fit
-	Status       Status     `json:"status"`
+	// Clean is the preferred model refitted without the anomaly window (widened
+	// by half its length on each side); nil when no anomaly was found. An
+	// anomaly pulls a single-lens fit away from the underlying event, so Clean
+	// is the better seed of t0, u0, tE for a binary search.
+	Clean  *Solution `json:"clean,omitempty"`
+	Status Status    `json:"status"`
+}
+
+// GridStart returns the seed of a binary search: Clean when present, else the
+// preferred fit.
+func (r *SingleResult) GridStart() lens.Params {
+	if r.Clean != nil {
+		return r.Clean.Params
+	}
+	return r.Best().Params
 }
 
 // Best returns the preferred fit.
@@ -278,5 +292,31 @@ func FitSingle(ctx context.Context, ev *Event, set SingleSettings) (*SingleResul
 		return res, err
 	}
 	res.Anomaly = FindAnomaly(res.Residuals, best.Params.TE, set.AnomalySigma)
+	if res.Anomaly.Found {
+		pad := 0.5 * (res.Anomaly.T2 - res.Anomaly.T1)
+		cev := *ev
+		cev.Datasets = make([]*Dataset, len(ev.Datasets))
+		for k, d := range ev.Datasets {
+			cd := *d
+			cd.Masked = make([]bool, d.Len())
+			for i, t := range d.T {
+				cd.Masked[i] = !d.Used(i) || (t >= res.Anomaly.T1-pad && t <= res.Anomaly.T2+pad)
+			}
+			cev.Datasets[k] = &cd
+		}
+		cl, err := NewLikelihood(&cev)
+		if err == nil {
+			specs := FreeSpecs(T0, U0, TE)
+			if best.Params.Rho > 0 {
+				specs = FreeSpecs(T0, U0, TE, Rho)
+			}
+			c, err := Optimize(ctx, cl, best.Params, specs, set.Opt)
+			if err == nil && c.Status != Failed {
+				c.Label = "without the anomaly"
+				c.Note = fmt.Sprintf("points in [%.5f, %.5f] excluded", res.Anomaly.T1-pad, res.Anomaly.T2+pad)
+				res.Clean = c
+			}
+		}
+	}
 	return res, nil
 }

@@ -157,12 +157,13 @@ func FiniteSourceSingle() *Spec {
 		}}
 }
 
-// PlanetCentral is a planetary event (q = 1.5e-3, s = 0.87) whose source passes
-// close to the central caustic at high magnification (u0 = 0.01): the regime
-// of the close/wide degeneracy (Griest & Safizadeh 1998; Dominik 1999).
+// PlanetCentral is a planetary event (q = 1e-3, s = 0.7) whose source passes
+// close to the central caustic (width ≈ 4q/(s − 1/s)² = 0.0075, Chung et al.
+// 2005) at high magnification (u0 = 0.015) without crossing it: the regime of
+// the close/wide degeneracy (Griest & Safizadeh 1998; Dominik 1999).
 func PlanetCentral() *Spec {
-	return &Spec{Name: "planet central caustic", Note: "high-magnification central-caustic approach, q = 1.5e-3",
-		Truth: lens.Model{Params: lens.Params{T0: jd0, U0: 0.01, TE: 30, S: 0.87, Q: 1.5e-3, Alpha: 0.9}, Ref: lens.CentralCaustic},
+	return &Spec{Name: "planet central caustic", Note: "high-magnification central-caustic approach, q = 1e-3",
+		Truth: lens.Model{Params: lens.Params{T0: jd0, U0: 0.015, TE: 30, S: 0.7, Q: 1e-3, Alpha: 0.9}, Ref: lens.CentralCaustic},
 		Sites: []Site{
 			survey("simsurvey", jd0-80, jd0+80, 0.2, 800, 300, 0.015),
 			{Name: "simfollow", Band: "I", Windows: []Window{{jd0 - 1.2, jd0 + 1.2, 0.01}}, NightFrac: 0,
@@ -198,4 +199,28 @@ func ResonantBinary() *Spec {
 // All returns every problem.
 func All() []*Spec {
 	return []*Spec{SingleLens(), FiniteSourceSingle(), PlanetCentral(), PlanetaryCaustic(), ResonantBinary()}
+}
+
+// DemoT0 is the peak time of the demo event (full JD, 2024 June).
+const DemoT0 = 2460480.3
+
+// Demo is "lensbook demo event": an invented planetary event seen by three
+// fictional observatories (a survey with a long baseline in magnitudes and two
+// follow-up sites), about 3000 points in all, with a central-caustic approach
+// of a q = 1.3e-3 planet (caustic width ≈ 4q/(s − 1/s)² = 0.021 θE, Chung et
+// al. 2005, comparable to u0). Point source (ρ = 0) so that the event is
+// exactly the model the grid search uses. The sites and their names are made
+// up for the demo.
+func Demo() *Spec {
+	t0 := DemoT0
+	return &Spec{Name: "lensbook demo event", Note: "invented planetary event, central-caustic approach, three fictional sites",
+		Truth: lens.Model{Params: lens.Params{T0: t0, U0: 0.022, TE: 34, S: 0.78, Q: 1.3e-3, Alpha: 2.45}, Ref: lens.CentralCaustic},
+		Sites: []Site{
+			{Name: "Tallowmere Survey Telescope", Band: "I", Windows: []Window{{t0 - 110, t0 + 90, 0.05}},
+				NightPhase: 0.05, NightFrac: 0.35, ZeroPoint: 25, Fs: 180, Fb: 71, SigMag: 0.02, FloorMag: 0.004, Mags: true, LD: 0.55},
+			{Name: "Quillon Peak 1.0m", Band: "V", Windows: []Window{{t0 - 4, t0 + 4, 0.004}},
+				NightPhase: 0.3, NightFrac: 0.35, ZeroPoint: 25, Fs: 120, Fb: 30, SigMag: 0.012, FloorMag: 0.003, LD: 0.7},
+			{Name: "Sandreef Observatory 0.6m", Band: "I", Windows: []Window{{t0 - 20, t0 - 6, 0.1}, {t0 - 6, t0 + 6, 0.006}, {t0 + 6, t0 + 20, 0.1}},
+				NightPhase: 0.62, NightFrac: 0.35, ZeroPoint: 25, Fs: 200, Fb: 90, SigMag: 0.015, FloorMag: 0.003, Mags: true, LD: 0.55},
+		}}
 }

@@ -76,15 +76,15 @@ func writeEvent(dir string, s *problems.Spec, offsets []float64) error {
 		N          int     `json:"n"`
 	}
 	truth := struct {
-		Event   string              `json:"event"`
-		Note    string              `json:"note"`
-		Seed    int                 `json:"seed"`
-		Ref     string              `json:"ref"`
-		Params  map[string]float64  `json:"params"`
-		Sites   []siteInfo          `json:"sites"`
-		Chi2    float64             `json:"chi2Truth"`
-		Command string              `json:"command"`
-		Units   map[string]string   `json:"units"`
+		Event   string             `json:"event"`
+		Note    string             `json:"note"`
+		Seed    int                `json:"seed"`
+		Ref     string             `json:"ref"`
+		Params  map[string]float64 `json:"params"`
+		Sites   []siteInfo         `json:"sites"`
+		Chi2    float64            `json:"chi2Truth"`
+		Command string             `json:"command"`
+		Units   map[string]string  `json:"units"`
 	}{Event: s.Name, Note: s.Note, Seed: seed, Ref: s.Truth.Ref.String(), Command: "go run ./fit/problems/cmd/simevents -demo testdata/demo -events testdata/events",
 		Params: map[string]float64{}, Units: map[string]string{"t0": "full JD (days)", "tE": "days", "alpha": "radians", "u0, s, rho": "θE"}}
 	p := s.Truth.Params

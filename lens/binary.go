@@ -398,7 +398,7 @@ func (s *Solver) select_(dst []Image, zeta complex128) ([]Image, bool) {
 		var f, e complex128
 		var det, res, sc, terms float64
 		accepted := false
-		for it := 0; it < 6; it++ {
+		for it := 0; it < 12; it++ {
 			h1, h2 := cinv(z-z1), cinv(z-z2)
 			g := complex(m1, 0)*h1 + complex(m2, 0)*h2
 			e = complex(m1, 0)*h1*h1 + complex(m2, 0)*h2*h2
@@ -433,9 +433,6 @@ func (s *Solver) select_(dst []Image, zeta complex128) ([]Image, bool) {
 				accepted = res <= 1e-12*sc
 				break
 			}
-		}
-		if !accepted && res <= 1e-12*sc && det != 0 {
-			accepted = true
 		}
 		if res > 1e-8*terms {
 			accepted = false

@@ -126,9 +126,11 @@ func eigenImages(s, q float64, zeta complex128, origins ...float64) []Image {
 		if cmplx.Abs(f) > 1e-13*scale {
 			continue
 		}
+		// Positions of highly magnified images are uncertain by ~|μ|ε|z|.
+		det := 1 - real(E*cmplx.Conj(E))
 		dup := false
 		for _, im := range out {
-			if cmplx.Abs(im.Z-z) < 1e-9*(1+cmplx.Abs(z)) {
+			if cmplx.Abs(im.Z-z) < (1e-9+1e-14/math.Abs(det))*(1+cmplx.Abs(z)) {
 				dup = true
 			}
 		}

@@ -233,19 +233,47 @@ var perms4 = func() [][4]int {
 	return out
 }()
 
-// point returns the caustic point of critical point z (working frame) and the
-// signed caustic speed v(φ) = Re(e^{iφ/2} dz/dφ) (see Caustics).
-func (cq *critQuartic) point(z complex128, phi float64) (zeta complex128, v float64) {
-	h1, h2 := cinv(z-complex(cq.a, 0)), cinv(z-complex(cq.b, 0))
-	m1, m2 := complex(cq.m1, 0), complex(cq.m2, 0)
-	g := m1*h1 + m2*h2
-	zeta = z - complex(real(g), -imag(g))
-	g3 := m1*h1*h1*h1 + m2*h2*h2*h2
+// point returns the critical point refined from z (working frame) and its
+// caustic point, both in the frame of the package doc, and the signed caustic
+// speed v(φ) = Re(e^{iφ/2} dz/dφ) (see Caustics).
+//
+// The work is done in the frame of the lens nearest to z: a critical curve
+// around a lens is a ring of radius ~√mi about it, and its caustic (of size
+// down to ~q/s² for the central caustic of a wide pair) comes from the
+// cancellation of the ring offset with the lens's deflection. Measured from
+// that lens, the offset carries round-off ε√mi instead of ε|z|, which keeps
+// tiny caustics far from the working origin sharp. Two Newton steps on
+// mi/w² + mj/(w + zi − zj)² = e^{iφ} in the offset w restore the digits the
+// working-frame root had lost.
+func (cq *critQuartic) point(z complex128, phi float64) (crit, zeta complex128, v float64) {
+	zi, zj, mi, mj := cq.a, cq.b, cq.m1, cq.m2
+	if abs1(z-complex(cq.b, 0)) < abs1(z-complex(cq.a, 0)) {
+		zi, zj, mi, mj = cq.b, cq.a, cq.m2, cq.m1
+	}
+	d := complex(zi-zj, 0)
 	sn, cs := math.Sincos(phi)
-	dz := cdiv(complex(sn, -cs), 2*g3) // −i e^{iφ} / (2 g3)
+	e := complex(cs, sn)
+	w := z - complex(zi, 0)
+	cmi, cmj := complex(mi, 0), complex(mj, 0)
+	var hi, hj complex128
+	for it := 0; it < 2; it++ {
+		hi, hj = cinv(w), cinv(w+d)
+		f := cmi*hi*hi + cmj*hj*hj - e
+		df := -2 * (cmi*hi*hi*hi + cmj*hj*hj*hj)
+		if df == 0 {
+			break
+		}
+		w -= cdiv(f, df)
+	}
+	hi, hj = cinv(w), cinv(w+d)
+	g := cmi*hi + cmj*hj
+	zl := w - complex(real(g), -imag(g))
+	g3 := cmi*hi*hi*hi + cmj*hj*hj*hj
+	dz := cdiv(complex(sn, -cs), 2*g3) // dz/dφ = −i e^{iφ} / (2 g3)
 	sh, ch := math.Sincos(phi / 2)
 	v = real(dz * complex(ch, sh))
-	return zeta, v
+	o := complex(zi+cq.o, 0)
+	return w + o, zl + o, v
 }
 
 // solveAt polishes a root of the quartic at angle phi by Newton's method from z.
@@ -279,7 +307,6 @@ func (cq *critQuartic) curve(tracks [][]complex128, cycle []int, n int) Curve {
 	var cusps []int
 	dphi := 2 * math.Pi / float64(n)
 	phi0 := 0.5 * dphi
-	o := complex(cq.o, 0)
 	// Along the cycle the angle runs on continuously: track cycle[t] covers
 	// φ ∈ [2πt, 2π(t+1)), so e^{iφ/2} stays continuous and v keeps its sign
 	// convention around the whole curve.
@@ -288,27 +315,26 @@ func (cq *critQuartic) curve(tracks [][]complex128, cycle []int, n int) Curve {
 		i %= m
 		return tracks[cycle[i/n]][i%n]
 	}
-	zeta0, v0 := cq.point(zAt(0), phi0)
+	c0, zeta0, v0 := cq.point(zAt(0), phi0)
 	zPrev, phiPrev, vPrev := zAt(0), phi0, v0
-	crit = append(crit, zPrev+o)
-	caus = append(caus, zeta0+o)
+	crit = append(crit, c0)
+	caus = append(caus, zeta0)
 	for i := 1; i <= m; i++ {
 		z, phi := zAt(i), phiAt(i)
 		// At i == m the curve is back at its start with φ advanced by
 		// 2π·len(cycle); e^{iφ/2} is then (−1)^len(cycle) times its start
 		// value, so odd cycles (the three-cusp close ovals) have an odd
 		// number of sign changes, as they must.
-		_, v := cq.point(z, phi)
+		cz, zeta, v := cq.point(z, phi)
 		if (vPrev < 0) != (v < 0) && vPrev != 0 {
 			zc, zetac := cq.bisectCusp(zPrev, phiPrev, vPrev, z, phi)
 			cusps = append(cusps, len(caus))
-			crit = append(crit, zc+o)
-			caus = append(caus, zetac+o)
+			crit = append(crit, zc)
+			caus = append(caus, zetac)
 		}
 		if i < m {
-			zeta, _ := cq.point(z, phi)
-			crit = append(crit, z+o)
-			caus = append(caus, zeta+o)
+			crit = append(crit, cz)
+			caus = append(caus, zeta)
 		}
 		zPrev, phiPrev, vPrev = z, phi, v
 	}
@@ -323,7 +349,7 @@ func (cq *critQuartic) bisectCusp(za complex128, phiA, vA float64, zb complex128
 	for it := 0; it < 50 && hi-lo > 1e-13; it++ {
 		mid := 0.5 * (lo + hi)
 		zm := cq.solveAt(0.5*(zlo+zhi), mid)
-		_, vm := cq.point(zm, mid)
+		_, _, vm := cq.point(zm, mid)
 		if (vm < 0) == (vA < 0) {
 			lo, zlo = mid, zm
 		} else {
@@ -331,9 +357,8 @@ func (cq *critQuartic) bisectCusp(za complex128, phiA, vA float64, zb complex128
 		}
 	}
 	mid := 0.5 * (lo + hi)
-	zc := cq.solveAt(0.5*(zlo+zhi), mid)
-	zeta, _ := cq.point(zc, mid)
-	return zc, zeta
+	crit, zeta, _ := cq.point(cq.solveAt(0.5*(zlo+zhi), mid), mid)
+	return crit, zeta
 }
 
 // Topology classifies b (Erdl & Schneider 1993; Dominik 1999) by comparing its

@@ -270,24 +270,30 @@ func (p *yparser) inline(s string, ind int) (*ynode, error) {
 	case '|', '>':
 		return nil, p.errorf("block scalars are not supported")
 	}
+	if c := s[0]; c != '{' && c != '[' && c != '"' && c != '\'' && c != '!' {
+		// Plain scalar in block context: the rest of the line up to a
+		// comment, folded with more-indented continuation lines.
+		if i := strings.Index(s, " #"); i >= 0 {
+			s = s[:i]
+		}
+		n := &ynode{kind: 's', s: strings.TrimSpace(s)}
+		for p.pos < len(p.lines) {
+			c := p.lines[p.pos]
+			t := strings.TrimSpace(c)
+			if t == "" || indentOf(c) <= ind || t[0] == '#' || mappingKeyEnd(t) >= 0 {
+				break
+			}
+			n.s += " " + t
+			p.pos++
+		}
+		return n, nil
+	}
 	for {
 		fp := flowParser{s: s}
 		n, err := fp.value(0)
 		if err == nil {
 			if j := fp.skipWS(); j < len(s) && s[j] != '#' {
 				return nil, p.errorf("unexpected text after value: %q", clip(s[j:]))
-			}
-			if n.kind == 's' && s[0] != '"' && s[0] != '\'' {
-				// Plain scalar: fold continuation lines.
-				for p.pos < len(p.lines) {
-					c := p.lines[p.pos]
-					t := strings.TrimSpace(c)
-					if t == "" || indentOf(c) <= ind || t[0] == '#' || mappingKeyEnd(t) >= 0 {
-						break
-					}
-					n.s += " " + t
-					p.pos++
-				}
 			}
 			return n, nil
 		}

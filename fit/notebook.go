@@ -412,8 +412,8 @@ func DecodeNotebook(data []byte) (*Notebook, error) {
 		Format  *string `json:"format"`
 		Version *int    `json:"version"`
 	}
-	if err := json.Unmarshal(data, &head); err != nil {
-		return nil, fmt.Errorf("fit: notebook: not a JSON object: %v", jsonErr(err))
+	if err := json.NewDecoder(bytes.NewReader(data)).Decode(&head); err != nil {
+		return nil, fmt.Errorf("fit: notebook: cannot read format and version: %v", jsonErr(err))
 	}
 	switch {
 	case head.Format == nil:
@@ -460,7 +460,9 @@ func DecodeNotebook(data []byte) (*Notebook, error) {
 }
 
 // jsonErr keeps JSON errors short: encoding/json may quote long input.
-func jsonErr(err error) string { return clip2(err.Error(), 300) }
+func jsonErr(err error) string {
+	return clip2(strings.ReplaceAll(err.Error(), "fit: ", ""), 300)
+}
 
 func clip2(s string, n int) string {
 	if len(s) <= n {
@@ -814,15 +816,18 @@ func checkRaw(what string, r json.RawMessage) error {
 // (line breaks and tabs are allowed in multi-line text). Markup is allowed:
 // it is stored as typed and flagged by Describe; the page renders text.
 func checkText(what, s string, max int, multiline bool) error {
+	if !strings.HasPrefix(what, "fit: ") {
+		what = "fit: notebook: " + what
+	}
 	if len(s) > max {
-		return fmt.Errorf("fit: notebook: %s is longer than %d bytes", what, max)
+		return fmt.Errorf("%s is longer than %d bytes", what, max)
 	}
 	if !utf8.ValidString(s) {
-		return fmt.Errorf("fit: notebook: %s is not valid UTF-8", what)
+		return fmt.Errorf("%s is not valid UTF-8", what)
 	}
 	for _, r := range s {
 		if unicode.IsControl(r) && !(multiline && (r == '\n' || r == '\t' || r == '\r')) {
-			return fmt.Errorf("fit: notebook: %s contains control character %U", what, r)
+			return fmt.Errorf("%s contains control character %U", what, r)
 		}
 	}
 	return nil

@@ -1,0 +1,459 @@
+package fit
+
+import (
+	"bytes"
+	"crypto/sha256"
+	"encoding/binary"
+	"encoding/hex"
+	"encoding/json"
+	"math"
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"reflect"
+	"strconv"
+	"strings"
+	"testing"
+)
+
+// synthDataset returns n points with seeded values, including awkward floats
+// (tiny, huge, negative zero flux) to exercise exact round trips.
+func synthDataset(n int, seed uint64) *Dataset {
+	r := rand.New(rand.NewPCG(seed, 1))
+	d := &Dataset{Name: "synthetic", Band: "I", TimeSystem: "BJD-TDB", ZeroPoint: 25, LD: 0.55,
+		T: make([]float64, n), Flux: make([]float64, n), Err: make([]float64, n), Line: make([]int, n)}
+	t := 2460100.0
+	for i := range n {
+		t += r.Float64() * 0.1
+		d.T[i] = t
+		d.Flux[i] = 1000 * r.NormFloat64()
+		d.Err[i] = 1 + r.Float64()
+		d.Line[i] = i + 2
+	}
+	if n > 3 {
+		d.Flux[0] = math.Copysign(0, -1)
+		d.Flux[1] = 5e-324
+		d.Flux[2] = 1.7976931348623157e308
+		d.Err[3] = 1e-300
+	}
+	return d
+}
+
+// demoNotebook builds a notebook with a parsed dataset, a synthetic one of n
+// points, masks, renormalisation and three steps.
+func demoNotebook(t testing.TB, n int) *Notebook {
+	t.Helper()
+	d1, err := Parse("mag_hjd2450000.dat", readFixture(t, "mag_hjd2450000.dat"), magOpts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	d1.Band = "V"
+	d1.ErrScale, d1.ErrFloor = 1.3, 0.004
+	d2 := synthDataset(n, 42)
+	ev := NewEvent("demo event 2026", d1, d2)
+	ev.Tol = 1e-3
+	ev.Blend = []Blend{{Mode: BlendNonNegative}, {Mode: BlendFixed, Fb: 12.5}}
+	if _, err := ev.Mask(Mask{Dataset: 0, Points: []int{3, 4}, Reason: "cloud"}); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := ev.Mask(Mask{Dataset: 1, Ranges: [][2]float64{{d2.T[5], d2.T[9]}}, Reason: "bad night"}); err != nil {
+		t.Fatal(err)
+	}
+	return &Notebook{
+		Title:  "Demo",
+		Notes:  "line one\nline two",
+		Event:  ev,
+		Coords: &Coords{RA: 268.75, Dec: -29.5},
+		Steps: []Step{
+			{ID: "s1", Kind: "single-lens", Settings: json.RawMessage(`{"finite":false}`), Seed: 1, Status: StepDone,
+				Result: json.RawMessage(`{"t0":2461250.3,"chi2":123.25}`)},
+			{ID: "s2", Kind: "binary-search", Settings: json.RawMessage(`{"grid":[31,31]}`), Seed: math.MaxUint64, Status: StepCancelled},
+			{ID: "s3", Kind: "refine", Status: StepPending, Note: "try <b>wide</b>"},
+		},
+	}
+}
+
+func encodeOK(t testing.TB, nb *Notebook) []byte {
+	t.Helper()
+	b, err := EncodeNotebook(nb)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return b
+}
+
+func TestNotebookRoundTrip(t *testing.T) {
+	nb := demoNotebook(t, 500)
+	doc := encodeOK(t, nb)
+	got, err := DecodeNotebook(doc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !reflect.DeepEqual(got, nb) {
+		t.Errorf("decoded notebook differs:\n got %+v\nwant %+v", got, nb)
+	}
+	// Bit-for-bit: the fingerprint covers the IEEE bits of every number.
+	if got.Fingerprint() != nb.Fingerprint() {
+		t.Error("fingerprints differ")
+	}
+	if got.Event.Datasets[1].Flux[0] != 0 || !math.Signbit(got.Event.Datasets[1].Flux[0]) {
+		t.Error("negative zero lost")
+	}
+	if again := encodeOK(t, got); !bytes.Equal(again, doc) {
+		t.Error("re-encoding gives different bytes")
+	}
+	if !strings.Contains(string(doc), `"seed":"18446744073709551615"`) {
+		t.Error("seed not written as a decimal string")
+	}
+}
+
+// TestNotebookFixture decodes the version-1 example kept in testdata (a
+// regression guard for the format, written by EncodeNotebook).
+func TestNotebookFixture(t *testing.T) {
+	path := filepath.Join("..", "testdata", "notebook", "v1-demo.json")
+	want := encodeOK(t, demoNotebook(t, 20))
+	if os.Getenv("LENSBOOK_UPDATE") != "" {
+		os.WriteFile(path, want, 0o644)
+	}
+	b, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	nb, err := DecodeNotebook(b)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got := encodeOK(t, nb); !bytes.Equal(got, b) {
+		t.Error("fixture does not re-encode to the same bytes")
+	}
+	if !bytes.Equal(b, want) {
+		t.Error("fixture differs from the current encoding (format changed? bump the version and add a migration, or regenerate with LENSBOOK_UPDATE=1)")
+	}
+}
+
+// TestDatasetFingerprint rebuilds the canonical encoding from its
+// description in the DatasetFingerprint doc and hashes it with crypto/sha256.
+func TestDatasetFingerprint(t *testing.T) {
+	d := &Dataset{T: []float64{2460000.5, 2460001.25}, Flux: []float64{1, math.Copysign(0, -1)}, Err: []float64{0.5, 2}}
+	var b []byte
+	b = append(b, "lensbook-data-v1\n"...)
+	b = binary.LittleEndian.AppendUint64(b, 2)
+	for i := range 2 {
+		for _, v := range []float64{d.T[i], d.Flux[i], d.Err[i]} {
+			b = binary.LittleEndian.AppendUint64(b, math.Float64bits(v))
+		}
+	}
+	sum := sha256.Sum256(b)
+	if got := DatasetFingerprint(d); got != hex.EncodeToString(sum[:]) {
+		t.Errorf("fingerprint %s, want %x", got, sum)
+	}
+	all := []byte("lensbook-datasets-v1\n")
+	all = binary.LittleEndian.AppendUint64(all, 1)
+	all = append(all, sum[:]...)
+	sum2 := sha256.Sum256(all)
+	if got := DataFingerprint([]*Dataset{d}); got != hex.EncodeToString(sum2[:]) {
+		t.Errorf("data fingerprint %s, want %x", got, sum2)
+	}
+	// Sensitive to every bit of the numbers (here the sign of zero), blind to labels.
+	e := *d
+	e.Flux = []float64{1, 0}
+	if DatasetFingerprint(&e) == DatasetFingerprint(d) {
+		t.Error("fingerprint ignores the sign of zero")
+	}
+	e = *d
+	e.Name, e.Line = "renamed", []int{7, 8}
+	if DatasetFingerprint(&e) != DatasetFingerprint(d) {
+		t.Error("fingerprint depends on labels")
+	}
+	// Larger than the internal buffer.
+	big := synthDataset(1000, 3)
+	h := sha256.New()
+	h.Write([]byte("lensbook-data-v1\n"))
+	binary.Write(h, binary.LittleEndian, uint64(1000))
+	for i := range 1000 {
+		binary.Write(h, binary.LittleEndian, []float64{big.T[i], big.Flux[i], big.Err[i]})
+	}
+	if got := DatasetFingerprint(big); got != hex.EncodeToString(h.Sum(nil)) {
+		t.Error("fingerprint of 1000 points differs from the streamed reference")
+	}
+}
+
+// mutate decodes doc into generic JSON, applies f and re-encodes.
+func mutate(t testing.TB, doc []byte, f func(m map[string]any)) []byte {
+	t.Helper()
+	var m map[string]any
+	dec := json.NewDecoder(bytes.NewReader(doc))
+	dec.UseNumber()
+	if err := dec.Decode(&m); err != nil {
+		t.Fatal(err)
+	}
+	f(m)
+	b, err := json.Marshal(m)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return b
+}
+
+func ds0(m map[string]any) map[string]any { return m["datasets"].([]any)[0].(map[string]any) }
+
+// TestNotebookHostile: each bad document gives a clear error and no notebook.
+func TestNotebookHostile(t *testing.T) {
+	doc := encodeOK(t, demoNotebook(t, 50))
+	set := func(f func(m map[string]any)) []byte { return mutate(t, doc, f) }
+	header := `{"format":"lensbook-notebook","version":1,"event":{"ref":0},"fingerprint":"` + strings.Repeat("0", 64) + `","steps":[],"datasets":[`
+	manyPoints := func(n int) []byte {
+		var b bytes.Buffer
+		b.WriteString(header)
+		b.WriteString(`{"name":"x","zero_point":25,"ld":0,"points":` + strconv.Itoa(n) + `,"fingerprint":"` + strings.Repeat("0", 64) + `","source":{"lines":{},"options":{}}`)
+		for _, k := range []string{"t", "flux", "err", "line"} {
+			b.WriteString(`,"` + k + `":[`)
+			b.WriteString(strings.Repeat("1,", n-1) + "1]")
+		}
+		b.WriteString("}]}")
+		return b.Bytes()
+	}
+	for _, tc := range []struct {
+		name string
+		doc  []byte
+		want string
+	}{
+		{"not JSON", []byte("<html>"), "cannot read format and version"},
+		{"no format", set(func(m map[string]any) { delete(m, "format") }), "no \"format\" field"},
+		{"wrong format", set(func(m map[string]any) { m["format"] = "spreadsheet" }), "format \"spreadsheet\""},
+		{"no version", set(func(m map[string]any) { delete(m, "version") }), "no \"version\""},
+		{"newer version", set(func(m map[string]any) { m["version"] = 2 }), "newer lensbook"},
+		{"version 0", set(func(m map[string]any) { m["version"] = 0 }), "does not exist"},
+		{"version as text", set(func(m map[string]any) { m["version"] = "1" }), "cannot read format and version"},
+		{"unknown field", set(func(m map[string]any) { m["surprise"] = 1 }), "unknown field"},
+		{"trailing data", append(slicesClone(doc), []byte(`{"x":1}`)...), "unexpected data after"},
+		{"negative count", set(func(m map[string]any) { ds0(m)["points"] = -5 }), "negative point count"},
+		{"count mismatch", set(func(m map[string]any) { ds0(m)["points"] = 61 }), "\"points\" is 61"},
+		{"lengths differ", set(func(m map[string]any) { d := ds0(m); d["flux"] = d["flux"].([]any)[1:] }), "arrays hold"},
+		{"altered number", set(func(m map[string]any) { ds0(m)["flux"].([]any)[0] = json.Number("123.5") }), "do not match the recorded fingerprint"},
+		{"zero uncertainty", set(func(m map[string]any) { ds0(m)["err"].([]any)[0] = json.Number("0") }), "uncertainty 0"},
+		{"overflowing number", bytes.Replace(doc, []byte(`"zero_point":25`), []byte(`"zero_point":1e999`), 1), "1e999"},
+		{"mask out of range", set(func(m map[string]any) { ds0(m)["masked"] = []any{3, 4, 999} }), "masked index 999"},
+		{"mask out of order", set(func(m map[string]any) { ds0(m)["masked"] = []any{4, 3} }), "out of order"},
+		{"mask record not applied", set(func(m map[string]any) { ds0(m)["masked"] = []any{3} }), "not marked as masked"},
+		{"negative line count", set(func(m map[string]any) {
+			ds0(m)["source"].(map[string]any)["lines"].(map[string]any)["comment"] = -1
+		}), "negative line count"},
+		{"line counts", set(func(m map[string]any) {
+			ds0(m)["source"].(map[string]any)["lines"].(map[string]any)["comment"] = 99
+		}), "do not add up"},
+		{"null dataset", set(func(m map[string]any) { m["datasets"].([]any)[0] = nil }), "null"},
+		{"omitted with data", set(func(m map[string]any) { ds0(m)["omitted"] = true }), "marked omitted but holds points"},
+		{"bad fingerprint text", set(func(m map[string]any) { ds0(m)["fingerprint"] = "<script>" }), "64 hex digits"},
+		{"altered overall fingerprint", set(func(m map[string]any) { m["fingerprint"] = strings.Repeat("a", 64) }), "does not match the datasets"},
+		{"repeated step id", set(func(m map[string]any) { m["steps"].([]any)[1].(map[string]any)["id"] = "s1" }), "empty or repeated"},
+		{"unknown status", set(func(m map[string]any) { m["steps"].([]any)[0].(map[string]any)["status"] = "exploded" }), "unknown status"},
+		{"bad step kind", set(func(m map[string]any) { m["steps"].([]any)[0].(map[string]any)["kind"] = "<script>" }), "kind"},
+		{"seed not a number", set(func(m map[string]any) { m["steps"].([]any)[0].(map[string]any)["seed"] = "-1" }), "seed"},
+		{"control character", set(func(m map[string]any) { ds0(m)["name"] = "a\u0007b" }), "control character"},
+		{"long name", set(func(m map[string]any) { ds0(m)["name"] = strings.Repeat("x", MaxNameLen+1) }), "longer than"},
+		{"bad coordinates", set(func(m map[string]any) { m["event"].(map[string]any)["coords"] = map[string]any{"ra_deg": 400, "dec_deg": 0} }), "out of range"},
+		{"bad blend mode", set(func(m map[string]any) { m["event"].(map[string]any)["blend"] = []any{map[string]any{"mode": "sideways"}} }), "blend mode"},
+		{"bad reference", set(func(m map[string]any) { m["event"].(map[string]any)["ref"] = 7 }), "reference point"},
+		{"too many datasets", set(func(m map[string]any) {
+			d := m["datasets"].([]any)
+			for len(d) <= MaxDatasets {
+				d = append(d, d[0])
+			}
+			m["datasets"] = d
+		}), "datasets, more than"},
+		{"too many points", manyPoints(MaxPoints + 1), "more than 1000000 points"},
+		{"too large", append([]byte(`{"format":"lensbook-notebook","version":1,"title":"`), bytes.Repeat([]byte(" "), MaxNotebookBytes)...), "larger than"},
+		{"deep nesting", bytes.Replace(doc, []byte(`{"finite":false}`), []byte(strings.Repeat("[", 20000)+strings.Repeat("]", 20000)), 1), "depth"},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			nb, err := DecodeNotebook(tc.doc)
+			if err == nil || nb != nil {
+				t.Fatalf("accepted: nb=%v err=%v", nb != nil, err)
+			}
+			t.Log(err)
+			if !strings.Contains(err.Error(), tc.want) || !strings.HasPrefix(err.Error(), "fit: notebook: ") {
+				t.Errorf("error %q does not say %q", err, tc.want)
+			}
+		})
+	}
+}
+
+func slicesClone(b []byte) []byte { return append([]byte(nil), b...) }
+
+// TestNotebookMarkupKept: markup in names is stored as typed and flagged.
+func TestNotebookMarkupKept(t *testing.T) {
+	nb := demoNotebook(t, 10)
+	const evil = `<img src=x onerror=alert(1)>`
+	nb.Event.Datasets[0].Name = evil
+	nb.Title = "A \u202Etxt.exe"
+	got, err := DecodeNotebook(encodeOK(t, nb))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got.Event.Datasets[0].Name != evil {
+		t.Errorf("name changed to %q", got.Event.Datasets[0].Name)
+	}
+	c := Describe(got, "notebook")
+	joined := strings.Join(c.Warnings, "\n")
+	if !strings.Contains(joined, "dataset 1 name: contains markup") || !strings.Contains(joined, "title: contains the text-direction control U+202E") ||
+		!strings.Contains(joined, "step 3 note: contains markup") {
+		t.Errorf("warnings %q", c.Warnings)
+	}
+}
+
+func TestNotebookEncodeRefuses(t *testing.T) {
+	for _, tc := range []struct {
+		name string
+		mod  func(nb *Notebook)
+		want string
+	}{
+		{"no event", func(nb *Notebook) { nb.Event = nil }, "no event"},
+		{"NaN flux", func(nb *Notebook) { nb.Event.Datasets[1].Flux[7] = math.NaN() }, "not finite"},
+		{"short slice", func(nb *Notebook) { d := nb.Event.Datasets[1]; d.Err = d.Err[1:] }, "slice lengths differ"},
+		{"invalid JSON result", func(nb *Notebook) { nb.Steps[0].Result = json.RawMessage("{") }, "not valid JSON"},
+		{"invalid UTF-8", func(nb *Notebook) { nb.Title = "\xff" }, "UTF-8"},
+		{"negative scale", func(nb *Notebook) { nb.Event.Datasets[0].ErrScale = -1 }, "error scale"},
+	} {
+		nb := demoNotebook(t, 20)
+		tc.mod(nb)
+		if _, err := EncodeNotebook(nb); err == nil || !strings.Contains(err.Error(), tc.want) {
+			t.Errorf("%s: err %v, want %q", tc.name, err, tc.want)
+		}
+	}
+}
+
+func TestNotebookAttach(t *testing.T) {
+	nb := demoNotebook(t, 30)
+	doc, err := encodeNotebook(nb, true) // all datasets omitted, as in a model link
+	if err != nil {
+		t.Fatal(err)
+	}
+	got, err := DecodeNotebook(doc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(got.Pending) != 2 || got.Event.Datasets[0].T != nil || got.Fingerprint() != nb.Fingerprint() {
+		t.Fatalf("pending %v", got.Pending)
+	}
+	// Re-read the file with the recorded options.
+	d0 := got.Event.Datasets[0]
+	fresh, err := Parse(d0.Source.File, readFixture(t, "mag_hjd2450000.dat"), d0.Source.Options)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Wrong options (another zero point) give other numbers: refused.
+	o := d0.Source.Options
+	o.ZeroPoint = 24
+	wrong, _ := Parse(d0.Source.File, readFixture(t, "mag_hjd2450000.dat"), o)
+	if err := got.Attach(0, wrong); err == nil || !strings.Contains(err.Error(), "fingerprint") {
+		t.Errorf("wrong data attached: %v", err)
+	}
+	if err := got.Attach(0, synthDataset(3, 1)); err == nil || !strings.Contains(err.Error(), "expects 60 points") {
+		t.Errorf("wrong count attached: %v", err)
+	}
+	if err := got.Attach(0, fresh); err != nil {
+		t.Fatal(err)
+	}
+	if err := got.Attach(0, fresh); err == nil {
+		t.Error("attached twice")
+	}
+	if err := got.Attach(1, nb.Event.Datasets[1]); err != nil {
+		t.Fatal(err)
+	}
+	// Now the notebook is complete and equals the original.
+	if len(got.Pending) != 0 || !bytes.Equal(encodeOK(t, got), encodeOK(t, nb)) {
+		t.Error("after attaching, the notebook differs from the original")
+	}
+	if got.Event.Datasets[0].ErrScale != 1.3 || !got.Event.Datasets[0].Masked[3] {
+		t.Error("renormalisation or mask lost in Attach")
+	}
+}
+
+func FuzzDecodeNotebook(f *testing.F) {
+	f.Add(encodeOK(f, demoNotebook(f, 12)))
+	doc, _ := encodeNotebook(demoNotebook(f, 12), true)
+	f.Add(doc)
+	f.Add([]byte(`{"format":"lensbook-notebook","version":1,"event":{"ref":0},"fingerprint":"","datasets":[],"steps":[]}`))
+	f.Add([]byte(`{"format":"lensbook-notebook","version":2}`))
+	f.Fuzz(func(t *testing.T, data []byte) {
+		nb, err := DecodeNotebook(data)
+		if err != nil {
+			if nb != nil {
+				t.Fatal("notebook returned with an error")
+			}
+			return
+		}
+		again, err := EncodeNotebook(nb)
+		if err != nil {
+			t.Fatalf("decoded notebook does not encode: %v", err)
+		}
+		nb2, err := DecodeNotebook(again)
+		if err != nil {
+			t.Fatalf("re-encoded notebook does not decode: %v", err)
+		}
+		if nb2.Fingerprint() != nb.Fingerprint() || !reflect.DeepEqual(Describe(nb2, "x"), Describe(nb, "x")) {
+			t.Fatal("round trip changed the notebook")
+		}
+	})
+}
+
+// Benchmarks on a 10,000-point notebook, against encoding/json on the bare
+// arrays (the least any JSON document of these numbers costs).
+
+var benchSink any
+
+type bareArrays struct{ T, Flux, Err []float64 }
+
+func bench10k(b *testing.B) (*Notebook, []byte, bareArrays) {
+	nb := demoNotebook(b, 10_000-60)
+	doc := encodeOK(b, nb)
+	var bare bareArrays
+	for _, d := range nb.Event.Datasets {
+		bare.T = append(bare.T, d.T...)
+		bare.Flux = append(bare.Flux, d.Flux...)
+		bare.Err = append(bare.Err, d.Err...)
+	}
+	return nb, doc, bare
+}
+
+func BenchmarkNotebookEncode10k(b *testing.B) {
+	nb, doc, _ := bench10k(b)
+	b.SetBytes(int64(len(doc)))
+	for b.Loop() {
+		benchSink, _ = EncodeNotebook(nb)
+	}
+}
+
+func BenchmarkNotebookEncode10kBaseline(b *testing.B) {
+	_, doc, bare := bench10k(b)
+	b.SetBytes(int64(len(doc)))
+	for b.Loop() {
+		benchSink, _ = json.Marshal(bare)
+	}
+}
+
+func BenchmarkNotebookDecode10k(b *testing.B) {
+	_, doc, _ := bench10k(b)
+	b.SetBytes(int64(len(doc)))
+	for b.Loop() {
+		nb, err := DecodeNotebook(doc)
+		if err != nil {
+			b.Fatal(err)
+		}
+		benchSink = nb
+	}
+}
+
+func BenchmarkNotebookDecode10kBaseline(b *testing.B) {
+	_, doc, bare := bench10k(b)
+	raw, _ := json.Marshal(bare)
+	b.SetBytes(int64(len(doc)))
+	for b.Loop() {
+		var v bareArrays
+		if err := json.Unmarshal(raw, &v); err != nil {
+			b.Fatal(err)
+		}
+		benchSink = v
+	}
+}

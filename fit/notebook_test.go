@@ -252,8 +252,12 @@ func TestNotebookHostile(t *testing.T) {
 		{"seed not a number", set(func(m map[string]any) { m["steps"].([]any)[0].(map[string]any)["seed"] = "-1" }), "seed"},
 		{"control character", set(func(m map[string]any) { ds0(m)["name"] = "a\u0007b" }), "control character"},
 		{"long name", set(func(m map[string]any) { ds0(m)["name"] = strings.Repeat("x", MaxNameLen+1) }), "longer than"},
-		{"bad coordinates", set(func(m map[string]any) { m["event"].(map[string]any)["coords"] = map[string]any{"ra_deg": 400, "dec_deg": 0} }), "out of range"},
-		{"bad blend mode", set(func(m map[string]any) { m["event"].(map[string]any)["blend"] = []any{map[string]any{"mode": "sideways"}} }), "blend mode"},
+		{"bad coordinates", set(func(m map[string]any) {
+			m["event"].(map[string]any)["coords"] = map[string]any{"ra_deg": 400, "dec_deg": 0}
+		}), "out of range"},
+		{"bad blend mode", set(func(m map[string]any) {
+			m["event"].(map[string]any)["blend"] = []any{map[string]any{"mode": "sideways"}}
+		}), "blend mode"},
 		{"bad reference", set(func(m map[string]any) { m["event"].(map[string]any)["ref"] = 7 }), "reference point"},
 		{"too many datasets", set(func(m map[string]any) {
 			d := m["datasets"].([]any)

@@ -81,12 +81,19 @@ func TestLikelihoodNoAllocs(t *testing.T) {
 	l, _ := fit.NewLikelihood(ev)
 	p := s.Truth.Params
 	l.Chi2(&p)
-	if n := testing.AllocsPerRun(10, func() { l.Chi2(&p) }); n != 0 {
-		t.Errorf("Chi2 allocates %v times per call", n)
+	// binary lens: only the per-dataset solver (a cold start, see magnify)
+	max := float64(len(ev.Datasets))
+	if n := testing.AllocsPerRun(10, func() { l.Chi2(&p) }); n > max {
+		t.Errorf("Chi2 allocates %v times per call, want ≤ %v", n, max)
 	}
 	r := make([]float64, l.N())
-	if n := testing.AllocsPerRun(10, func() { l.Residuals(r, &p) }); n != 0 {
-		t.Errorf("Residuals allocates %v times per call", n)
+	if n := testing.AllocsPerRun(10, func() { l.Residuals(r, &p) }); n > max {
+		t.Errorf("Residuals allocates %v times per call, want ≤ %v", n, max)
+	}
+	// single lens: none
+	p.S, p.Q, p.Alpha = 0, 0, 0
+	if n := testing.AllocsPerRun(10, func() { l.Chi2(&p) }); n != 0 {
+		t.Errorf("single-lens Chi2 allocates %v times per call", n)
 	}
 }
 

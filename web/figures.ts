@@ -1,0 +1,211 @@
+// Static figures drawn as SVG: the χ² map, caustics with trajectories, the
+// corner plot, and the export version of the light curve. The same SVG is shown
+// on the page and exported (as .svg, or rasterised to .png), so what the user
+// sees is what they save. Only numbers computed by the engine are drawn here.
+
+import { download } from "./dom";
+
+const NS = "http://www.w3.org/2000/svg";
+
+/** Our dataset palette: muted, distinguishable, readable on the paper background. */
+export const PALETTE = ["#2f6690", "#c0622f", "#4d8b55", "#8a559f", "#b0862a", "#3a8f92", "#a8465e", "#5d6470"];
+export const INK = "#1d2733";
+export const MUTED = "#6b7580";
+export const SOLUTION_COLOURS = ["#1d2733", "#b3412c", "#2f6690", "#4d8b55", "#8a559f", "#b0862a"];
+
+/** Colour ramp for maps, low (good) to high: deep blue-green to pale sand. */
+const RAMP = [
+  [23, 59, 87],
+  [47, 111, 143],
+  [106, 163, 154],
+  [201, 214, 163],
+  [246, 240, 218],
+];
+
+export function ramp(f: number): string {
+  if (!Number.isFinite(f)) return "#ffffff";
+  f = Math.min(1, Math.max(0, f)) * (RAMP.length - 1);
+  const i = Math.min(RAMP.length - 2, Math.floor(f));
+  const w = f - i;
+  const c = RAMP[i].map((v, k) => Math.round(v + (RAMP[i + 1][k] - v) * w));
+  return `rgb(${c[0]},${c[1]},${c[2]})`;
+}
+
+export function svg<K extends keyof SVGElementTagNameMap>(tag: K, attrs: Record<string, string | number> = {}): SVGElementTagNameMap[K] {
+  const e = document.createElementNS(NS, tag);
+  for (const [k, v] of Object.entries(attrs)) e.setAttribute(k, String(v));
+  return e;
+}
+
+/** Round tick values covering [lo, hi], about n of them. */
+export function ticks(lo: number, hi: number, n = 5): number[] {
+  if (!(hi > lo)) return [lo];
+  const raw = (hi - lo) / n;
+  const p = Math.pow(10, Math.floor(Math.log10(raw)));
+  const step = [1, 2, 2.5, 5, 10].map((m) => m * p).find((s) => s >= raw) ?? raw;
+  const out: number[] = [];
+  for (let v = Math.ceil(lo / step) * step; v <= hi + step * 1e-9; v += step) out.push(Math.abs(v) < step * 1e-9 ? 0 : v);
+  return out;
+}
+
+function tickLabel(v: number): string {
+  const a = Math.abs(v);
+  if (a !== 0 && (a < 1e-3 || a >= 1e6)) return v.toExponential(1);
+  return String(Number(v.toPrecision(6)));
+}
+
+export interface Axis {
+  lo: number;
+  hi: number;
+  label: string;
+  invert?: boolean; // magnitudes: bright up
+}
+
+/** A panel with axes; x()/y() map data to SVG coordinates. */
+export class Panel {
+  readonly g: SVGGElement;
+  constructor(
+    root: SVGSVGElement,
+    readonly left: number,
+    readonly top: number,
+    readonly w: number,
+    readonly h: number,
+    readonly xa: Axis,
+    readonly ya: Axis,
+    opts: { xTicks?: boolean; yTicks?: boolean; xLabel?: boolean; yLabel?: boolean } = {},
+  ) {
+    this.g = svg("g");
+    root.append(this.g);
+    const clipId = "clip" + Math.random().toString(36).slice(2);
+    const clip = svg("clipPath", { id: clipId });
+    clip.append(svg("rect", { x: left, y: top, width: w, height: h }));
+    root.append(clip);
+    const frame = svg("rect", { x: left, y: top, width: w, height: h, fill: "none", stroke: MUTED, "stroke-width": 1 });
+    this.plot = svg("g", { "clip-path": `url(#${clipId})` });
+    this.g.append(this.plot, frame);
+    const font = { "font-family": "system-ui, sans-serif", "font-size": 11, fill: INK };
+    if (opts.xTicks !== false)
+      for (const t of ticks(xa.lo, xa.hi)) {
+        const x = this.x(t);
+        this.g.append(svg("line", { x1: x, x2: x, y1: top + h, y2: top + h + 4, stroke: MUTED }));
+        const tx = svg("text", { ...font, x, y: top + h + 16, "text-anchor": "middle" });
+        tx.textContent = tickLabel(t);
+        this.g.append(tx);
+      }
+    if (opts.yTicks !== false)
+      for (const t of ticks(Math.min(ya.lo, ya.hi), Math.max(ya.lo, ya.hi))) {
+        const y = this.y(t);
+        this.g.append(svg("line", { x1: left - 4, x2: left, y1: y, y2: y, stroke: MUTED }));
+        const ty = svg("text", { ...font, x: left - 6, y: y + 4, "text-anchor": "end" });
+        ty.textContent = tickLabel(t);
+        this.g.append(ty);
+      }
+    if (opts.xLabel !== false && xa.label) {
+      const l = svg("text", { ...font, x: left + w / 2, y: top + h + 32, "text-anchor": "middle" });
+      l.textContent = xa.label;
+      this.g.append(l);
+    }
+    if (opts.yLabel !== false && ya.label) {
+      const cy = top + h / 2;
+      const l = svg("text", { ...font, x: left - 44, y: cy, "text-anchor": "middle", transform: `rotate(-90 ${left - 44} ${cy})` });
+      l.textContent = ya.label;
+      this.g.append(l);
+    }
+  }
+  readonly plot: SVGGElement;
+
+  x(v: number): number {
+    return this.left + ((v - this.xa.lo) / (this.xa.hi - this.xa.lo)) * this.w;
+  }
+  y(v: number): number {
+    const f = (v - this.ya.lo) / (this.ya.hi - this.ya.lo);
+    return this.ya.invert ? this.top + f * this.h : this.top + this.h - f * this.h;
+  }
+
+  polyline(xs: ArrayLike<number>, ys: ArrayLike<number>, stroke: string, width = 1.5, dash = ""): void {
+    let d = "";
+    let pen = false;
+    for (let i = 0; i < xs.length; i++) {
+      if (!Number.isFinite(xs[i]) || !Number.isFinite(ys[i])) {
+        pen = false;
+        continue;
+      }
+      d += (pen ? "L" : "M") + this.x(xs[i]).toFixed(2) + " " + this.y(ys[i]).toFixed(2);
+      pen = true;
+    }
+    if (!d) return;
+    const p = svg("path", { d, fill: "none", stroke, "stroke-width": width, "stroke-linejoin": "round" });
+    if (dash) p.setAttribute("stroke-dasharray", dash);
+    this.plot.append(p);
+  }
+
+  points(xs: ArrayLike<number>, ys: ArrayLike<number>, fill: string, r = 2, errs?: ArrayLike<number>): void {
+    let bars = "";
+    for (let i = 0; i < xs.length; i++) {
+      if (!Number.isFinite(xs[i]) || !Number.isFinite(ys[i])) continue;
+      const x = this.x(xs[i]);
+      if (errs && Number.isFinite(errs[i])) {
+        bars += `M${x.toFixed(2)} ${this.y(ys[i] - errs[i]).toFixed(2)}V${this.y(ys[i] + errs[i]).toFixed(2)}`;
+      }
+      this.plot.append(svg("circle", { cx: x.toFixed(2), cy: this.y(ys[i]).toFixed(2), r, fill }));
+    }
+    if (bars) this.plot.prepend(svg("path", { d: bars, stroke: fill, "stroke-opacity": 0.45, "stroke-width": 1 }));
+  }
+
+  marker(x: number, y: number, colour: string, label = ""): void {
+    const cx = this.x(x);
+    const cy = this.y(y);
+    this.plot.append(svg("circle", { cx, cy, r: 6, fill: "none", stroke: "#ffffff", "stroke-width": 3 }));
+    this.plot.append(svg("circle", { cx, cy, r: 6, fill: "none", stroke: colour, "stroke-width": 2 }));
+    if (label) {
+      const t = svg("text", { x: cx + 8, y: cy - 8, "font-family": "system-ui, sans-serif", "font-size": 11, fill: colour, "font-weight": 600 });
+      t.textContent = label;
+      this.plot.append(t);
+    }
+  }
+}
+
+export function newFigure(w: number, h: number, title: string): SVGSVGElement {
+  const root = svg("svg", { xmlns: NS, width: w, height: h, viewBox: `0 0 ${w} ${h}`, role: "img" });
+  root.append(svg("rect", { x: 0, y: 0, width: w, height: h, fill: "#fcfbf7" }));
+  const t = svg("title");
+  t.textContent = title;
+  root.append(t);
+  return root;
+}
+
+export function caption(root: SVGSVGElement, x: number, y: number, text: string, size = 12, anchor = "start"): void {
+  const t = svg("text", { x, y, "font-family": "system-ui, sans-serif", "font-size": size, fill: INK, "text-anchor": anchor });
+  t.textContent = text;
+  root.append(t);
+}
+
+export function serialise(root: SVGSVGElement): string {
+  return '<?xml version="1.0" encoding="UTF-8"?>\n' + new XMLSerializer().serializeToString(root);
+}
+
+export function exportSVG(root: SVGSVGElement, name: string): void {
+  download(name + ".svg", serialise(root), "image/svg+xml");
+}
+
+/** Rasterises an SVG figure at 2× and downloads it as PNG. */
+export async function exportPNG(root: SVGSVGElement, name: string): Promise<void> {
+  const w = Number(root.getAttribute("width"));
+  const h = Number(root.getAttribute("height"));
+  const url = URL.createObjectURL(new Blob([serialise(root)], { type: "image/svg+xml" }));
+  try {
+    const img = new Image();
+    img.src = url;
+    await img.decode();
+    const c = document.createElement("canvas");
+    c.width = w * 2;
+    c.height = h * 2;
+    const ctx = c.getContext("2d")!;
+    ctx.scale(2, 2);
+    ctx.drawImage(img, 0, 0, w, h);
+    const blob = await new Promise<Blob>((res, rej) => c.toBlob((b) => (b ? res(b) : rej(new Error("PNG encoding failed"))), "image/png"));
+    download(name + ".png", blob);
+  } finally {
+    URL.revokeObjectURL(url);
+  }
+}

@@ -1,0 +1,251 @@
+// Interactive light curve and residuals (uPlot): every dataset in its colour
+// with error bars, magnitudes with bright values up, model curves per solution,
+// zoom (drag) and pan (shift-drag or the arrow buttons), and a drag mode that
+// masks or unmasks the points inside a box.
+
+import uPlot from "uplot";
+import "uplot/dist/uPlot.min.css";
+
+export interface PlotDataset {
+  name: string;
+  colour: string;
+  t: number[]; // display time (HJD′ = JD − 2450000)
+  y: number[]; // magnitude
+  e: number[]; // 1σ magnitude error
+  masked: boolean[];
+  resid?: number[]; // data − model (mag) for the selected solution
+}
+
+export interface PlotModel {
+  label: string;
+  colour: string;
+  dash: boolean;
+  t: number[];
+  y: number[];
+}
+
+export interface PlotInput {
+  datasets: PlotDataset[];
+  models: PlotModel[];
+  yLabel: string;
+}
+
+export type DragMode = "zoom" | "mask" | "unmask";
+
+export class LightCurvePlot {
+  private main?: uPlot;
+  private res?: uPlot;
+  private input?: PlotInput;
+  mode: DragMode = "zoom";
+  onBox?: (mode: DragMode, t0: number, t1: number, y0: number, y1: number) => void;
+
+  constructor(
+    private mainEl: HTMLElement,
+    private resEl: HTMLElement,
+  ) {
+    new ResizeObserver(() => this.resize()).observe(mainEl);
+  }
+
+  private width(): number {
+    return Math.max(320, this.mainEl.clientWidth);
+  }
+
+  private resize(): void {
+    const w = this.width();
+    this.main?.setSize({ width: w, height: 300 });
+    this.res?.setSize({ width: w, height: 130 });
+  }
+
+  /** The current x range (display time), for zoom state and exports. */
+  xRange(): [number, number] | undefined {
+    const s = this.main?.scales.x;
+    return s && s.min != null && s.max != null ? [s.min, s.max] : undefined;
+  }
+
+  setX(t0: number, t1: number): void {
+    this.main?.setScale("x", { min: t0, max: t1 });
+  }
+
+  resetZoom(): void {
+    if (!this.input) return;
+    const all = this.input.datasets.flatMap((d) => d.t);
+    if (all.length === 0) return;
+    let lo = Infinity;
+    let hi = -Infinity;
+    for (const v of all) {
+      lo = Math.min(lo, v);
+      hi = Math.max(hi, v);
+    }
+    const pad = (hi - lo) * 0.02 || 1;
+    this.setX(lo - pad, hi + pad);
+  }
+
+  pan(fraction: number): void {
+    const r = this.xRange();
+    if (!r) return;
+    const d = (r[1] - r[0]) * fraction;
+    this.setX(r[0] + d, r[1] + d);
+  }
+
+  render(input: PlotInput): void {
+    const keep = this.xRange();
+    this.input = input;
+    this.main?.destroy();
+    this.res?.destroy();
+    this.main = this.res = undefined;
+    if (input.datasets.length === 0) return;
+
+    const tables: uPlot.AlignedData[] = [];
+    for (const d of input.datasets) tables.push([d.t, d.y.map((v, i) => (d.masked[i] ? null : v))] as uPlot.AlignedData);
+    for (const m of input.models) tables.push([m.t, m.y] as uPlot.AlignedData);
+    const data = uPlot.join(tables);
+    const series: uPlot.Series[] = [{ label: "HJD′" }];
+    for (const d of input.datasets)
+      series.push({
+        label: d.name,
+        stroke: d.colour,
+        fill: d.colour,
+        paths: () => null,
+        points: { show: true, size: 5, stroke: d.colour, fill: d.colour },
+        value: (_u, v) => (v == null ? "—" : v.toFixed(3)),
+      });
+    for (const m of input.models)
+      series.push({
+        label: m.label,
+        stroke: m.colour,
+        width: 1.6,
+        dash: m.dash ? [6, 4] : undefined,
+        spanGaps: true,
+        points: { show: false },
+        value: (_u, v) => (v == null ? "—" : v.toFixed(3)),
+      });
+
+    const errorBars = (u: uPlot) => {
+      const ctx = u.ctx;
+      ctx.save();
+      ctx.beginPath();
+      ctx.rect(u.bbox.left, u.bbox.top, u.bbox.width, u.bbox.height);
+      ctx.clip();
+      input.datasets.forEach((d, k) => {
+        if (!u.series[k + 1].show) return;
+        ctx.strokeStyle = d.colour;
+        ctx.globalAlpha = 0.4;
+        ctx.lineWidth = 1;
+        ctx.beginPath();
+        const [xmin, xmax] = [u.scales.x.min!, u.scales.x.max!];
+        for (let i = 0; i < d.t.length; i++) {
+          if (d.masked[i] || d.t[i] < xmin || d.t[i] > xmax) continue;
+          const x = u.valToPos(d.t[i], "x", true);
+          ctx.moveTo(x, u.valToPos(d.y[i] - d.e[i], "y", true));
+          ctx.lineTo(x, u.valToPos(d.y[i] + d.e[i], "y", true));
+        }
+        ctx.stroke();
+        // masked points: hollow grey rings
+        ctx.globalAlpha = 0.8;
+        ctx.strokeStyle = "#9aa1a8";
+        ctx.beginPath();
+        for (let i = 0; i < d.t.length; i++) {
+          if (!d.masked[i] || d.t[i] < xmin || d.t[i] > xmax) continue;
+          const x = u.valToPos(d.t[i], "x", true);
+          const y = u.valToPos(d.y[i], "y", true);
+          ctx.moveTo(x + 3 * devicePixelRatio, y);
+          ctx.arc(x, y, 3 * devicePixelRatio, 0, 2 * Math.PI);
+        }
+        ctx.stroke();
+      });
+      ctx.restore();
+    };
+
+    const sync = uPlot.sync("lensbook-lc");
+    const w = this.width();
+    this.main = new uPlot(
+      {
+        width: w,
+        height: 300,
+        series,
+        scales: { x: { time: false }, y: { dir: -1 } },
+        axes: [
+          { label: "HJD′ = JD − 2450000", stroke: "#3b4652", grid: { stroke: "#e6e2d8" } },
+          { label: input.yLabel, stroke: "#3b4652", grid: { stroke: "#e6e2d8" }, size: 60 },
+        ],
+        cursor: { sync: { key: sync.key, setSeries: false }, drag: { x: true, y: true, uni: 30 } },
+        legend: { live: true },
+        hooks: {
+          draw: [errorBars],
+          setSelect: [
+            (u) => {
+              if (this.mode === "zoom" || u.select.width < 2) return;
+              const t0 = u.posToVal(u.select.left, "x");
+              const t1 = u.posToVal(u.select.left + u.select.width, "x");
+              const ya = u.posToVal(u.select.top, "y");
+              const yb = u.posToVal(u.select.top + u.select.height, "y");
+              u.setSelect({ left: 0, top: 0, width: 0, height: 0 }, false);
+              this.onBox?.(this.mode, t0, t1, Math.min(ya, yb), Math.max(ya, yb));
+            },
+          ],
+          setScale: [
+            (u, key) => {
+              if (key !== "x" || !this.res) return;
+              const { min, max } = u.scales.x;
+              const r = this.res.scales.x;
+              if (min != null && max != null && (r.min !== min || r.max !== max)) this.res.setScale("x", { min, max });
+            },
+          ],
+        },
+      },
+      data,
+      this.mainEl,
+    );
+    // In mask modes a drag selects a box instead of zooming.
+    this.main.over.addEventListener("mousedown", () => {
+      (this.main!.cursor.drag as { setScale: boolean }).setScale = this.mode === "zoom";
+    });
+
+    const withResid = input.datasets.filter((d) => d.resid);
+    if (withResid.length > 0) {
+      const rt: uPlot.AlignedData[] = withResid.map(
+        (d) => [d.t, d.resid!.map((v, i) => (d.masked[i] ? null : v))] as uPlot.AlignedData,
+      );
+      const rdata = uPlot.join(rt);
+      const rseries: uPlot.Series[] = [{ label: "HJD′" }];
+      for (const d of withResid)
+        rseries.push({ label: d.name, stroke: d.colour, paths: () => null, points: { show: true, size: 4, fill: d.colour } });
+      this.res = new uPlot(
+        {
+          width: w,
+          height: 130,
+          series: rseries,
+          scales: { x: { time: false }, y: { dir: -1 } },
+          axes: [
+            { stroke: "#3b4652", grid: { stroke: "#e6e2d8" } },
+            { label: "data − model (mag)", stroke: "#3b4652", grid: { stroke: "#e6e2d8" }, size: 60 },
+          ],
+          legend: { show: false },
+          cursor: { sync: { key: sync.key }, drag: { x: false, y: false } },
+          hooks: {
+            drawAxes: [
+              (u) => {
+                const y = u.valToPos(0, "y", true);
+                u.ctx.save();
+                u.ctx.strokeStyle = "#1d2733";
+                u.ctx.beginPath();
+                u.ctx.moveTo(u.bbox.left, y);
+                u.ctx.lineTo(u.bbox.left + u.bbox.width, y);
+                u.ctx.stroke();
+                u.ctx.restore();
+              },
+            ],
+          },
+        },
+        rdata,
+        this.resEl,
+      );
+    }
+    if (keep) this.setX(keep[0], keep[1]);
+  }
+
+  /** PNG of the interactive plot as shown (main panel, and residuals if present). */
+  canvases(): HTMLCanvasElement[] {
+    return [this.main?.ctx.canvas, this.res?.ctx.canvas].filter((c): c is HTMLCanvasElement => !!c);
+  }
+}

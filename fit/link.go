@@ -145,10 +145,14 @@ func EncodeLink(nb *Notebook, opts *LinkOptions) (string, *Contents, error) {
 		if err != nil {
 			return "", nil, err
 		}
-		if s := LinkPrefixFull + deflateBase64(doc); len(s) <= fullMax {
-			c := Describe(nb, "full link")
-			c.Bytes = len(s)
-			return s, c, nil
+		// Compress only as far as the size limit allows: a large notebook
+		// is abandoned after ~fullMax·3/4 compressed bytes, not compressed whole.
+		if z, ok := deflateLimited(doc, (fullMax-len(LinkPrefixFull))*3/4); ok {
+			if s := LinkPrefixFull + base64.RawURLEncoding.EncodeToString(z); len(s) <= fullMax {
+				c := Describe(nb, "full link")
+				c.Bytes = len(s)
+				return s, c, nil
+			}
 		}
 	}
 	doc, err := encodeNotebook(nb, true)
@@ -167,6 +171,35 @@ func EncodeLink(nb *Notebook, opts *LinkOptions) (string, *Contents, error) {
 	c := Describe(got, "model link")
 	c.Bytes = len(s)
 	return s, c, nil
+}
+
+var errLinkLimit = errors.New("limit reached")
+
+// limitWriter fails once more than max bytes are written.
+type limitWriter struct {
+	buf bytes.Buffer
+	max int
+}
+
+func (w *limitWriter) Write(p []byte) (int, error) {
+	if w.buf.Len()+len(p) > w.max {
+		return 0, errLinkLimit
+	}
+	return w.buf.Write(p)
+}
+
+// deflateLimited compresses doc, giving up (ok false) when the compressed
+// stream would exceed max bytes.
+func deflateLimited(doc []byte, max int) (z []byte, ok bool) {
+	lw := &limitWriter{max: max}
+	zw, _ := flate.NewWriter(lw, flate.BestCompression)
+	if _, err := zw.Write(doc); err != nil {
+		return nil, false
+	}
+	if err := zw.Close(); err != nil {
+		return nil, false
+	}
+	return lw.buf.Bytes(), true
 }
 
 func deflateBase64(doc []byte) string {

@@ -239,3 +239,17 @@ func BenchmarkLinkDecode10kBaseline(b *testing.B) {
 		benchSink = v
 	}
 }
+
+// BenchmarkLinkEncode10kDefault is the button press on a 10,000-point
+// notebook: the full attempt stops at the size limit, then a model link.
+func BenchmarkLinkEncode10kDefault(b *testing.B) {
+	nb, doc, _ := bench10k(b)
+	b.SetBytes(int64(len(doc)))
+	for b.Loop() {
+		s, _, err := EncodeLink(nb, nil)
+		if err != nil || !strings.HasPrefix(s, LinkPrefixModel) {
+			b.Fatal(err)
+		}
+		benchSink = s
+	}
+}

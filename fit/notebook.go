@@ -408,6 +408,12 @@ func DecodeNotebook(data []byte) (*Notebook, error) {
 	if len(data) > MaxNotebookBytes {
 		return nil, fmt.Errorf("fit: notebook: document is larger than %d bytes", MaxNotebookBytes)
 	}
+	// Fast path: a current document decodes strictly in one pass.
+	w, werr := decodeWire(data)
+	if werr == nil && w.Format == NotebookFormat && w.Version == NotebookVersion {
+		return w.notebook()
+	}
+	// Otherwise say why, format and version first.
 	var head struct {
 		Format  *string `json:"format"`
 		Version *int    `json:"version"`
@@ -426,37 +432,46 @@ func DecodeNotebook(data []byte) (*Notebook, error) {
 		return nil, fmt.Errorf("fit: notebook: version %d was written by a newer lensbook; this one reads versions up to %d", *head.Version, NotebookVersion)
 	case *head.Version < 1:
 		return nil, fmt.Errorf("fit: notebook: version %d does not exist (versions start at 1)", *head.Version)
+	case *head.Version == NotebookVersion:
+		return nil, werr
 	}
-	if v := *head.Version; v < NotebookVersion {
-		var doc map[string]json.RawMessage
-		if err := json.Unmarshal(data, &doc); err != nil {
-			return nil, fmt.Errorf("fit: notebook: %v", jsonErr(err))
+	var doc map[string]json.RawMessage
+	if err := json.Unmarshal(data, &doc); err != nil {
+		return nil, fmt.Errorf("fit: notebook: %v", jsonErr(err))
+	}
+	for v := *head.Version; v < NotebookVersion; v++ {
+		m, ok := migrations[v]
+		if !ok {
+			return nil, fmt.Errorf("fit: notebook: no migration from version %d", v)
 		}
-		for ; v < NotebookVersion; v++ {
-			m, ok := migrations[v]
-			if !ok {
-				return nil, fmt.Errorf("fit: notebook: no migration from version %d", v)
-			}
-			if err := m(doc); err != nil {
-				return nil, fmt.Errorf("fit: notebook: migrating version %d: %w", v, err)
-			}
-		}
-		doc["version"] = json.RawMessage(fmt.Sprint(NotebookVersion))
-		var err error
-		if data, err = json.Marshal(doc); err != nil {
-			return nil, fmt.Errorf("fit: notebook: %w", err)
+		if err := m(doc); err != nil {
+			return nil, fmt.Errorf("fit: notebook: migrating version %d: %w", v, err)
 		}
 	}
-	var w wireNotebook
+	doc["version"] = json.RawMessage(fmt.Sprint(NotebookVersion))
+	migrated, err := json.Marshal(doc)
+	if err != nil {
+		return nil, fmt.Errorf("fit: notebook: %w", err)
+	}
+	if w, err = decodeWire(migrated); err != nil {
+		return nil, err
+	}
+	return w.notebook()
+}
+
+// decodeWire decodes a version-1 document strictly: unknown fields and
+// trailing data are errors.
+func decodeWire(data []byte) (*wireNotebook, error) {
+	w := new(wireNotebook)
 	dec := json.NewDecoder(bytes.NewReader(data))
 	dec.DisallowUnknownFields()
-	if err := dec.Decode(&w); err != nil {
+	if err := dec.Decode(w); err != nil {
 		return nil, fmt.Errorf("fit: notebook: %v", jsonErr(err))
 	}
 	if _, err := dec.Token(); err != io.EOF {
 		return nil, errors.New("fit: notebook: unexpected data after the document")
 	}
-	return w.notebook()
+	return w, nil
 }
 
 // jsonErr keeps JSON errors short: encoding/json may quote long input.

@@ -49,12 +49,33 @@ const (
 
 func (k ValueKind) String() string {
 	switch k {
+	case KindUnset:
+		return "unset"
 	case KindMag:
 		return "magnitude"
 	case KindFlux:
 		return "flux"
 	}
-	return "unset"
+	return fmt.Sprintf("ValueKind(%d)", int(k))
+}
+
+// MarshalText writes the kind by name ("unset", "magnitude", "flux").
+func (k ValueKind) MarshalText() ([]byte, error) {
+	if k < KindUnset || k > KindFlux {
+		return nil, fmt.Errorf("fit: invalid value kind %d", int(k))
+	}
+	return []byte(k.String()), nil
+}
+
+// UnmarshalText reads "unset", "magnitude" or "flux".
+func (k *ValueKind) UnmarshalText(b []byte) error {
+	for _, v := range []ValueKind{KindUnset, KindMag, KindFlux} {
+		if string(b) == v.String() {
+			*k = v
+			return nil
+		}
+	}
+	return fmt.Errorf("fit: unknown value kind %q", clip(string(b)))
 }
 
 // Limits of the photometry reader. Plausible magnitudes: brighter than −5 is no

@@ -495,3 +495,19 @@ func BenchmarkParse200kBaseline(b *testing.B) {
 		}
 	}
 }
+
+// TestParseFingerprintStable pins the fingerprint of a parsed magnitude file.
+// Regression guard (value produced by this code on linux/amd64), kept so that
+// the wasm run of this test proves the magnitude-to-flux conversion gives the
+// same bits in the browser as natively: a model link made on one must open on
+// the other.
+func TestParseFingerprintStable(t *testing.T) {
+	d, err := Parse("mag_hjd2450000.dat", readFixture(t, "mag_hjd2450000.dat"), magOpts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	const want = "865505048968d27eb1574df5afc0ef3d24b022b43665a23c7b4f5db8a8dd6029"
+	if got := DatasetFingerprint(d); got != want {
+		t.Errorf("fingerprint %s, want %s", got, want)
+	}
+}

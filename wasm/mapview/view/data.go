@@ -1,0 +1,93 @@
+package view
+
+import (
+	"errors"
+	"fmt"
+	"math"
+
+	"lensbook/fit"
+	"lensbook/lens"
+)
+
+// Series is one dataset as the host page sends it: times (full JD), fluxes and
+// their 1σ uncertainties, with the dataset's own fitting settings.
+type Series struct {
+	Name               string
+	T, Flux, Err       []float64
+	Masked             []bool  // nil = all used
+	ErrScale, ErrFloor float64 // see fit.Dataset
+	LD                 float64 // linear limb-darkening coefficient u
+}
+
+// Data holds the loaded photometry and computes the total χ² of a model with
+// package fit's likelihood (linear flux solution per dataset), so the number
+// shown beside the map is the one the fitting steps use.
+type Data struct {
+	sets []Series
+	ref  lens.Reference
+	tol  float64
+	lik  *fit.Likelihood
+	n    int
+}
+
+// Set replaces the datasets, checking that each has matching slice lengths.
+func (d *Data) Set(sets []Series) error {
+	for _, s := range sets {
+		if len(s.Flux) != len(s.T) || len(s.Err) != len(s.T) || (s.Masked != nil && len(s.Masked) != len(s.T)) {
+			return fmt.Errorf("mapview: dataset %q: t, flux, err (and masked) lengths differ: %d, %d, %d",
+				s.Name, len(s.T), len(s.Flux), len(s.Err))
+		}
+	}
+	d.sets, d.lik, d.n = sets, nil, 0
+	for _, s := range sets {
+		d.n += len(s.T)
+	}
+	return nil
+}
+
+// N is the number of points loaded.
+func (d *Data) N() int { return d.n }
+
+// Range returns the time span of the data (0, 0 when empty).
+func (d *Data) Range() (lo, hi float64) {
+	lo, hi = math.Inf(1), math.Inf(-1)
+	for _, s := range d.sets {
+		for _, t := range s.T {
+			lo, hi = math.Min(lo, t), math.Max(hi, t)
+		}
+	}
+	if lo > hi {
+		return 0, 0
+	}
+	return lo, hi
+}
+
+// ErrNoData is returned by Chi2 when no data are loaded.
+var ErrNoData = errors.New("mapview: no data loaded")
+
+// Chi2 returns the total χ² of m against the data. The likelihood is built
+// on first use and rebuilt when the reference point or the tolerance change.
+func (d *Data) Chi2(m *lens.Model) (float64, error) {
+	if d.n == 0 {
+		return math.NaN(), ErrNoData
+	}
+	if d.lik == nil || d.ref != m.Ref || d.tol != m.Tol {
+		ev := &fit.Event{Name: "map view", Ref: m.Ref, Tol: m.Tol}
+		for _, s := range d.sets {
+			line := make([]int, len(s.T))
+			for i := range line {
+				line[i] = i + 1
+			}
+			ev.Datasets = append(ev.Datasets, &fit.Dataset{
+				Name: s.Name, T: s.T, Flux: s.Flux, Err: s.Err, Line: line, Masked: s.Masked,
+				ErrScale: s.ErrScale, ErrFloor: s.ErrFloor, LD: s.LD,
+			})
+		}
+		lik, err := fit.NewLikelihood(ev)
+		if err != nil {
+			return math.NaN(), err
+		}
+		d.lik, d.ref, d.tol = lik, m.Ref, m.Tol
+	}
+	return d.lik.Chi2(&m.Params)
+}

@@ -105,7 +105,10 @@ func TestDemoFilesMatchGenerator(t *testing.T) {
 }
 
 func TestEventFilesLoad(t *testing.T) {
-	dirs, _ := filepath.Glob(filepath.Join("..", "testdata", "events", "*"))
+	dirs, _ := filepath.Glob(filepath.Join("..", "testdata", "events", "*", "truth.json"))
+	for i := range dirs {
+		dirs[i] = filepath.Dir(dirs[i])
+	}
 	if len(dirs) < 3 {
 		t.Fatalf("found %d simulated events in testdata/events", len(dirs))
 	}

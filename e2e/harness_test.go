@@ -70,11 +70,54 @@ func run(m *testing.M) int {
 		fmt.Fprintln(os.Stderr, "e2e:", err)
 		return 1
 	}
-	srv := &http.Server{Handler: site.Handler(func() string { return siteDir })}
+	srv := &http.Server{Handler: counting(site.Handler(func() string { return siteDir }))}
 	go srv.Serve(ln)
 	defer srv.Close()
 	baseURL = "http://" + ln.Addr().String() + "/"
 	return m.Run()
+}
+
+// served counts the bytes the server sent (compressed bodies, as on the
+// wire without TLS and headers) and the paths asked for, workers and frames
+// included, which the page's own network events do not show.
+var served struct {
+	sync.Mutex
+	bytes int64
+	paths []string
+}
+
+type countWriter struct {
+	http.ResponseWriter
+	n int64
+}
+
+func (w *countWriter) Write(b []byte) (int, error) {
+	n, err := w.ResponseWriter.Write(b)
+	w.n += int64(n)
+	return n, err
+}
+
+func counting(h http.Handler) http.Handler {
+	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
+		cw := &countWriter{ResponseWriter: w}
+		h.ServeHTTP(cw, r)
+		served.Lock()
+		served.bytes += cw.n
+		served.paths = append(served.paths, r.URL.Path)
+		served.Unlock()
+	})
+}
+
+func resetServed() {
+	served.Lock()
+	served.bytes, served.paths = 0, nil
+	served.Unlock()
+}
+
+func servedSoFar() (int64, []string) {
+	served.Lock()
+	defer served.Unlock()
+	return served.bytes, append([]string(nil), served.paths...)
 }
 
 // page is one browser with one tab, recording console errors, every network

@@ -506,7 +506,8 @@ async function runRefine(start?: Params): Promise<void> {
     const g = steps.grid.result as GridOut | undefined;
     if (!g) throw new Error("Run the binary search first (or send a model from the map view).");
     const r = await oneJob("refine", { notebook: doc, grid: g.grid, settings })(track, progress);
-    if (r.result) delete (r.result as { grid?: unknown }).grid; // the grid is kept by its own step
+    // the grid is kept by its own step: store the refine result without a second copy
+    if (r.result) r.result = { ...(r.result as object), grid: undefined };
     return r;
   });
 }
@@ -625,7 +626,6 @@ const ENGINE_STEPS: Record<StepId, string[]> = {
 
 function renderAll(): void {
   for (const id of STEP_ORDER) renderStep(id);
-  renderPlots();
 }
 
 function statusText(id: StepId): string {
@@ -1050,6 +1050,35 @@ const hook: LensbookHook = {
 };
 (window as unknown as { lensbook: LensbookHook }).lensbook = hook;
 
+// ---------- map view, on demand ----------
+
+/**
+ * The magnification-map view (web/mapview.ts, its own bundle) runs an ebiten
+ * program in a same-origin iframe, which shares this page's thread, and
+ * downloads its own wasm module. It is loaded when the user opens it (or at
+ * once with ?map=1), so the notebook starts fast and stays responsive while
+ * the workers compute.
+ */
+function mapViewOnDemand(): void {
+  const meta = document.querySelector<HTMLMetaElement>('meta[name="lensbook-mapview"]');
+  if (!meta) return;
+  const panel = $("#map-panel");
+  const load = () => {
+    clear(panel);
+    const s = document.createElement("script");
+    s.type = "module";
+    s.src = meta.content;
+    document.head.append(s);
+  };
+  if (query.get("map") === "1") {
+    load();
+    return;
+  }
+  const b = el("button", { id: "open-map", type: "button", text: "Open the magnification map" });
+  b.addEventListener("click", load);
+  panel.append(el("h3", { text: "Magnification map" }), el("p", { class: "hint", text: "Drag the source across the caustics of the selected solution and watch the light curve follow." }), b);
+}
+
 // ---------- boot ----------
 
 function boot(): void {
@@ -1071,7 +1100,9 @@ function boot(): void {
   $("#pan-left").addEventListener("click", () => lc.pan(-0.25));
   $("#pan-right").addEventListener("click", () => lc.pan(0.25));
   $("#zoom-anomaly").addEventListener("click", zoomToAnomaly);
+  mapViewOnDemand();
   renderAll();
+  renderPlots();
   pool
     .ready()
     .then(async (names) => {

@@ -248,7 +248,8 @@ func copyStatic(root, out string) error {
 		if e.Name() == "index.html" {
 			tag := ""
 			if haveMap == nil {
-				tag = `<script type="module" src="mapview.js"></script>`
+				// loaded on demand by the page (see web/main.ts, mapViewOnDemand)
+				tag = `<meta name="lensbook-mapview" content="mapview.js">`
 			}
 			b = bytes.Replace(b, []byte("<!--mapview-->"), []byte(tag), 1)
 		}

@@ -442,17 +442,23 @@ func runEnsemble(ctx context.Context, set EnsembleSettings, t Target, st Start, 
 		}
 		if c.Steps%set.ProgressEvery == 0 && c.Steps < set.Steps {
 			// τ costs O(N log N) in the stored length; re-estimate only once the
-			// chain has grown by half so the total cost stays about three times
-			// that of one final estimate.
-			if c.Stored >= lastDiag+lastDiag/2 {
+			// chain has grown by a tenth, so the total cost stays about ten
+			// times that of one final estimate (negligible beside a light-curve
+			// likelihood). The schedule depends on the step count only, so
+			// where a run stops is reproducible.
+			if c.Stored >= lastDiag+lastDiag/10 {
 				d = diagnose(c, false)
 				lastDiag = c.Stored
+				// Stop only when the full verdict (with R̂) agrees, so an
+				// early stop never ends in "not converged".
+				if set.TargetESS > 0 && d.reached(set.TargetESS) && Diagnose(c).Converged {
+					c.Status = ChainTargetReached
+				}
 			}
 			if progress != nil {
 				progress(Progress{Mode: mode, Step: c.Steps, Steps: set.Steps, Acceptance: c.Acceptance(), Tau: d.stepTau(), ESS: d.ESS})
 			}
-			if set.TargetESS > 0 && d.reached(set.TargetESS) {
-				c.Status = ChainTargetReached
+			if c.Status == ChainTargetReached {
 				break
 			}
 		}

@@ -451,7 +451,7 @@ func Optimize(ctx context.Context, l *Likelihood, start lens.Params, specs Specs
 	if math.IsInf(o.best, 1) {
 		sol.Status = Failed
 		sol.Params = start
-		sol.Chi2 = math.Inf(1)
+		sol.Chi2 = math.MaxFloat64 // JSON cannot carry +Inf; Status says Failed
 		if err == nil {
 			err = fmt.Errorf("fit: no finite χ² found from %+v", start)
 		}

@@ -92,3 +92,19 @@ func TestRefineBinaryFromPerturbedTruth(t *testing.T) {
 		}
 	}
 }
+
+// A fit that cannot start still returns a JSON-encodable Solution.
+func TestFailedSolutionEncodes(t *testing.T) {
+	s := problems.SingleLens()
+	ev := simulate(t, s, 43)
+	l := mustLikelihood(t, ev)
+	bad := s.Truth.Params
+	bad.TE = 1e6 // above the default tE bound
+	sol, err := fit.Optimize(context.Background(), l, bad, fit.FreeSpecs(fit.T0, fit.TE), fit.OptSettings{})
+	if err == nil || sol == nil || sol.Status != fit.Failed {
+		t.Fatalf("got %+v, %v; want a failed solution and an error", sol, err)
+	}
+	if _, err := json.Marshal(sol); err != nil {
+		t.Fatalf("failed solution does not encode: %v", err)
+	}
+}

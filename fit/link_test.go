@@ -160,8 +160,9 @@ func mustOmit(t testing.TB, nb *Notebook) []byte {
 }
 
 func FuzzDecodeLink(f *testing.F) {
-	full, _, _ := EncodeLink(demoNotebook(f, 12), nil)
-	model, _, _ := EncodeLink(demoNotebook(f, 12), &LinkOptions{ModelOnly: true})
+	tiny := &Notebook{Event: NewEvent("e", synthDataset(4, 9)), Steps: []Step{{ID: "a", Kind: "refine", Status: StepPending}}}
+	full, _, _ := EncodeLink(tiny, nil)
+	model, _, _ := EncodeLink(tiny, &LinkOptions{ModelOnly: true})
 	f.Add(full)
 	f.Add(model)
 	f.Add(full[:len(full)/2])

@@ -380,8 +380,12 @@ func TestNotebookAttach(t *testing.T) {
 }
 
 func FuzzDecodeNotebook(f *testing.F) {
-	f.Add(encodeOK(f, demoNotebook(f, 12)))
-	doc, _ := encodeNotebook(demoNotebook(f, 12), true)
+	// Small seeds keep the fuzzer's minimisation quick.
+	tiny := &Notebook{Event: NewEvent("e", synthDataset(4, 9)),
+		Steps: []Step{{ID: "a", Kind: "refine", Status: StepDone, Seed: 3, Result: json.RawMessage(`{"chi2":1}`)}}}
+	tiny.Event.Mask(Mask{Dataset: 0, Points: []int{1}, Reason: "x"})
+	f.Add(encodeOK(f, tiny))
+	doc, _ := encodeNotebook(tiny, true)
 	f.Add(doc)
 	f.Add([]byte(`{"format":"lensbook-notebook","version":1,"event":{"ref":0},"fingerprint":"","datasets":[],"steps":[]}`))
 	f.Add([]byte(`{"format":"lensbook-notebook","version":2}`))

@@ -94,7 +94,8 @@ const (
 	// MaxFileBytes and MaxRows bound what one file may hold, so that a
 	// mistaken upload (a video, a huge catalogue) fails early and clearly.
 	MaxFileBytes = 64 << 20
-	MaxRows      = 1_000_000
+	MaxRows      = 1_000_000 // data rows (accepted or rejected)
+	MaxLines     = 2_000_000 // lines of any kind
 )
 
 // TimeOffset is a constant that, added to the times in a file, gives full
@@ -338,6 +339,27 @@ func (p *Preview) propose(t *table, samples [][]float64) {
 			fits = append(fits, off)
 		}
 	}
+	tname := strings.ToLower(p.Names[o.TimeCol-1])
+	if len(fits) > 1 {
+		// The column name may settle it, e.g. "HJD-2450000" or "mjd".
+		for _, f := range fits {
+			hint := strconv.FormatFloat(f.Days, 'f', -1, 64)
+			if f.Days == 2400000.5 {
+				hint = "mjd"
+			}
+			if f.Days != 0 && strings.Contains(tname, hint) {
+				fits = []TimeOffset{f}
+				p.Why = append(p.Why, fmt.Sprintf("time offset: the time column is named %q", p.Names[o.TimeCol-1]))
+				break
+			}
+		}
+	}
+	for _, sys := range []string{"hjd", "bjd"} {
+		if strings.HasPrefix(tname, sys) {
+			p.Why = append(p.Why, fmt.Sprintf("time system: the time column is named %q; set the time-system label (%s, and UTC or TDB) yourself, it is not set from the name",
+				p.Names[o.TimeCol-1], strings.ToUpper(sys)))
+		}
+	}
 	switch len(fits) {
 	case 0:
 		p.Why = append(p.Why, fmt.Sprintf("time offset: median time %.6g fits none of the usual forms; check the time column", tm))
@@ -372,7 +394,7 @@ func findCol(names []string, cands ...string) int {
 	for _, c := range cands {
 		for i, n := range names {
 			n = strings.ToLower(strings.TrimSpace(n))
-			if j := strings.IndexAny(n, "([ "); j > 0 {
+			if j := strings.IndexAny(n, "([ -"); j > 0 {
 				n = n[:j]
 			}
 			if n == c {
@@ -439,8 +461,17 @@ func Parse(name string, data []byte, opts ImportOptions) (*Dataset, error) {
 	src.Lines.Comment = t.commentLines
 	src.Lines.Blank = t.blankLines
 
+	ndata := 0
+	for _, ln := range t.lines[t.dataStart:] {
+		if classify(ln, t) == lineData {
+			ndata++
+		}
+	}
+	if ndata > MaxRows {
+		return nil, fmt.Errorf("fit: %s: %d data rows, more than the %d accepted", name, ndata, MaxRows)
+	}
 	p := rowParser{opts: opts, zp: zp, file: name, mag: opts.Kind == KindMag}
-	est := len(t.lines) - t.dataStart
+	est := ndata
 	d.T = make([]float64, 0, est)
 	d.Flux = make([]float64, 0, est)
 	d.Err = make([]float64, 0, est)
@@ -458,9 +489,6 @@ func Parse(name string, data []byte, opts ImportOptions) (*Dataset, error) {
 			continue
 		}
 		rows++
-		if rows > MaxRows {
-			return nil, fmt.Errorf("fit: %s: more than %d data rows", name, MaxRows)
-		}
 		var badQuote bool
 		fields, badQuote = t.split(ln, fields[:0])
 		lineNo := i + 1

@@ -77,6 +77,9 @@ func scanTable(name string, data []byte) (*table, error) {
 	if len(data) > MaxFileBytes {
 		return nil, fmt.Errorf("fit: %s: file is %d bytes, more than the %d accepted", name, len(data), MaxFileBytes)
 	}
+	if n := bytes.Count(data, []byte{'\n'}); n > MaxLines {
+		return nil, fmt.Errorf("fit: %s: %d lines, more than the %d accepted", name, n, MaxLines)
+	}
 	if i := bytes.IndexByte(data, 0); i >= 0 {
 		return nil, fmt.Errorf("fit: %s: contains a NUL byte at offset %d; not a text file", name, i)
 	}

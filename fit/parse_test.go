@@ -1,6 +1,7 @@
 package fit
 
 import (
+	"bytes"
 	"fmt"
 	"math"
 	"os"
@@ -332,6 +333,8 @@ func TestSniffProposals(t *testing.T) {
 		{"MJD fluxes", "60000.5 1500 30\n60001.5 -20 30\n", KindFlux, 2400000.5, false},
 		{"flux by header", "time flux err\n9000.5 17.1 0.01\n", KindFlux, 2450000, false},
 		{"mag by commented header", "# time mag err\n9000.5 1700 10\n", KindMag, 2450000, false},
+		{"offset from the column name", "HJD-2450000 mag err\n1200.5 17.1 0.01\n", KindMag, 2450000, false},
+		{"MJD by name only when it fits", "mjd mag err\n1200.5 17.1 0.01\n", KindMag, 2460000, true},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			p, err := Sniff("s", []byte(tc.data))
@@ -358,6 +361,8 @@ func TestParseRefusals(t *testing.T) {
 		{"column out of range", good, ImportOptions{TimeCol: 1, ValueCol: 2, ErrCol: 4, Kind: KindMag}, "out of range"},
 		{"same column twice", good, ImportOptions{TimeCol: 1, ValueCol: 1, ErrCol: 3, Kind: KindMag}, "different columns"},
 		{"binary", []byte("9000\x00 1 2\n"), magOpts, "NUL byte"},
+		{"too many lines", bytes.Repeat([]byte("\n"), MaxLines+1), magOpts, "lines, more than"},
+		{"too many rows", bytes.Repeat([]byte("1 2 3\n"), MaxRows+1), magOpts, "data rows"},
 		{"only comments", []byte("# nothing\n\n"), magOpts, "no data rows"},
 		{"all rows bad", []byte("9000.1 17.5 0\n"), magOpts, "no valid data rows"},
 		{"bad LD", good, ImportOptions{TimeCol: 1, ValueCol: 2, ErrCol: 3, Kind: KindMag, LD: 1.5}, "limb-darkening"},

@@ -49,34 +49,37 @@ type LinkOptions struct {
 // Contents describes a notebook for display before it replaces anything:
 // the page shows it when a link or file is opened.
 type Contents struct {
-	Kind        string // "notebook", "full link" or "model link"
-	Bytes       int    // size of the link (characters) or document (bytes)
-	Title       string
-	Event       string
-	Fingerprint string // DataFingerprint of all datasets
-	Points      int    // points over all datasets
-	Datasets    []DatasetContents
-	Steps       []StepContents
+	Kind        string            `json:"kind"`  // "notebook", "full link" or "model link"
+	Bytes       int               `json:"bytes"` // size of the link (characters) or document (bytes)
+	Title       string            `json:"title"`
+	Event       string            `json:"event"`
+	Fingerprint string            `json:"fingerprint"` // DataFingerprint of all datasets
+	Points      int               `json:"points"`      // points over all datasets
+	Datasets    []DatasetContents `json:"datasets"`
+	Steps       []StepContents    `json:"steps"`
 	// Warnings lists user-supplied texts to treat with care (markup,
 	// direction controls), e.g. "dataset 2 name: contains markup characters…".
-	Warnings []string
+	Warnings []string `json:"warnings"`
 }
 
 // DatasetContents describes one dataset of a notebook.
 type DatasetContents struct {
-	Name, Band, File string
-	Points           int
-	Rejected         int    // rejected rows recorded
-	Masked           int    // points masked by the user
-	Included         bool   // false when the points must be supplied (model link)
-	Fingerprint      string // DatasetFingerprint
+	Name        string `json:"name"`
+	Band        string `json:"band"`
+	File        string `json:"file"`
+	Points      int    `json:"points"`
+	Rejected    int    `json:"rejected"`    // rejected rows recorded
+	Masked      int    `json:"masked"`      // points masked by the user
+	Included    bool   `json:"included"`    // false when the points must be supplied (model link)
+	Fingerprint string `json:"fingerprint"` // DatasetFingerprint
 }
 
 // StepContents describes one step.
 type StepContents struct {
-	ID, Kind string
-	Status   StepStatus
-	Seed     uint64
+	ID     string     `json:"id"`
+	Kind   string     `json:"kind"`
+	Status StepStatus `json:"status"`
+	Seed   uint64     `json:"seed,string"`
 }
 
 // Describe describes nb. kind is copied to Contents.Kind.

@@ -98,6 +98,42 @@ type Step struct {
 	Note     string          `json:"note,omitempty"` // user's note, plain text
 }
 
+// SetSettings stores v (any JSON-encodable settings struct) as the step's
+// settings.
+func (s *Step) SetSettings(v any) error { return setRaw(&s.Settings, v) }
+
+// SetResult stores v as the step's result.
+func (s *Step) SetResult(v any) error { return setRaw(&s.Result, v) }
+
+// DecodeSettings decodes the step's settings into v; fields of the document
+// that v does not have are an error, so a mismatch of step kind and type
+// shows. Empty settings leave v unchanged.
+func (s *Step) DecodeSettings(v any) error { return getRaw(s.Settings, v, s.ID, "settings") }
+
+// DecodeResult decodes the step's result into v (see DecodeSettings).
+func (s *Step) DecodeResult(v any) error { return getRaw(s.Result, v, s.ID, "result") }
+
+func setRaw(dst *json.RawMessage, v any) error {
+	b, err := json.Marshal(v)
+	if err != nil {
+		return fmt.Errorf("fit: step: %w", err)
+	}
+	*dst = b
+	return nil
+}
+
+func getRaw(r json.RawMessage, v any, id, what string) error {
+	if len(r) == 0 {
+		return nil
+	}
+	dec := json.NewDecoder(bytes.NewReader(r))
+	dec.DisallowUnknownFields()
+	if err := dec.Decode(v); err != nil {
+		return fmt.Errorf("fit: step %q %s: %v", clip(id), what, jsonErr(err))
+	}
+	return nil
+}
+
 // Coords is a sky position.
 type Coords struct {
 	RA  float64 `json:"ra_deg"`  // right ascension (degrees, [0, 360))
@@ -132,10 +168,10 @@ func (nb *Notebook) datasets() []*Dataset {
 
 // PendingData describes the points a dataset expects.
 type PendingData struct {
-	Index       int    // in Notebook.Event.Datasets
-	File        string // file name the data came from
-	Points      int    // number of points
-	Fingerprint string // DatasetFingerprint of the points
+	Index       int    `json:"index"`       // in Notebook.Event.Datasets
+	File        string `json:"file"`        // file name the data came from
+	Points      int    `json:"points"`      // number of points
+	Fingerprint string `json:"fingerprint"` // DatasetFingerprint of the points
 }
 
 // DatasetFingerprint is the hex SHA-256 of a canonical encoding of a

@@ -470,3 +470,25 @@ func BenchmarkNotebookDecode10kBaseline(b *testing.B) {
 		benchSink = v
 	}
 }
+
+func TestStepTypedHelpers(t *testing.T) {
+	type settings struct {
+		Grid [2]int `json:"grid"`
+		Seed uint64 `json:"seed"`
+	}
+	var s Step
+	if err := s.SetSettings(settings{Grid: [2]int{31, 31}, Seed: 7}); err != nil {
+		t.Fatal(err)
+	}
+	var got settings
+	if err := s.DecodeSettings(&got); err != nil || got.Grid != [2]int{31, 31} || got.Seed != 7 {
+		t.Errorf("got %+v, %v", got, err)
+	}
+	s.Settings = json.RawMessage(`{"grid":[1,2],"other":1}`)
+	if err := s.DecodeSettings(&got); err == nil || !strings.Contains(err.Error(), "unknown field") {
+		t.Errorf("unknown field accepted: %v", err)
+	}
+	if err := s.SetResult(math.NaN()); err == nil {
+		t.Error("NaN result accepted")
+	}
+}

@@ -101,8 +101,8 @@ const (
 // TimeOffset is a constant that, added to the times in a file, gives full
 // Julian dates.
 type TimeOffset struct {
-	Days  float64 // added to every time (days)
-	Label string  // e.g. "JD − 2450000"
+	Days  float64 `json:"days"`  // added to every time (days)
+	Label string  `json:"label"` // e.g. "JD − 2450000"
 }
 
 // TimeOffsets are the offsets Sniff can propose: full JD, the two reduced
@@ -182,26 +182,26 @@ func (o *ImportOptions) check(ncol int) error {
 
 // Preview is what Sniff found in a file: facts and proposals, nothing applied.
 type Preview struct {
-	File       string
-	Format     string   // "plain" or "ecsv"
-	Delimiter  string   // "whitespace" or "comma"
-	Names      []string // column names, from the header; "col1", "col2", … when there is none
-	Units      []string // column units (ECSV only; "" when unknown)
-	HeaderLine int      // 1-based line of the column-names row, 0 if none
-	Columns    int      // number of columns
+	File       string   `json:"file"`
+	Format     string   `json:"format"`      // "plain" or "ecsv"
+	Delimiter  string   `json:"delimiter"`   // "whitespace" or "comma"
+	Names      []string `json:"names"`       // column names, from the header; "col1", "col2", … when there is none
+	Units      []string `json:"units"`       // column units (ECSV only; nil otherwise)
+	HeaderLine int      `json:"header_line"` // 1-based line of the column-names row, 0 if none
+	Columns    int      `json:"columns"`     // number of columns
 
-	Rows     [][]string // the first data rows (at most PreviewRows), split into fields
-	RowLines []int      // 1-based line number of each row in Rows
-	DataRows int        // number of non-comment, non-blank lines after the header
+	Rows     [][]string `json:"rows"`      // the first data rows (at most PreviewRows), split into fields
+	RowLines []int      `json:"row_lines"` // 1-based line number of each row in Rows
+	DataRows int        `json:"data_rows"` // number of non-comment, non-blank lines after the header
 
 	// Proposed holds the proposed columns, kind and time offset, with the
 	// file name as dataset name. The user confirms or edits it before Parse.
-	Proposed ImportOptions
+	Proposed ImportOptions `json:"proposed"`
 	// Why explains each proposal in a sentence, for display.
-	Why []string
+	Why []string `json:"why"`
 	// OffsetAmbiguous is true when the times fit more than one entry of
 	// TimeOffsets; the user must then choose.
-	OffsetAmbiguous bool
+	OffsetAmbiguous bool `json:"offset_ambiguous"`
 }
 
 // PreviewRows is how many rows Sniff returns in Preview.Rows.

@@ -79,7 +79,13 @@ const maxImageMag = 1e12
 //
 // Within about 1e-12 θE of a caustic the image count is decided by round-off
 // (the source position itself is no more precise than that); the total
-// magnification there is dominated by the merging pair either way.
+// magnification there is dominated by the merging pair either way. When even
+// the last attempt finds no valid set and the failure comes from roots where
+// det J (nearly) vanishes, so that Newton cannot converge on them or their
+// parity is round-off (a source on a fold or cusp to ~1e-11), those roots are
+// taken as the merging images, with |1/det J| at their position (capped at
+// 1e12) and the parities the rule above requires; Stats.OnCaustic counts such
+// calls. Their magnification is then only an order of magnitude.
 type Solver struct {
 	b      Binary
 	err    error   // validation error of b
@@ -101,6 +107,9 @@ type Solver struct {
 // SolverStats counts the work done by a Solver.
 type SolverStats struct {
 	Calls, Sweeps, Cold, Retries int
+	// OnCaustic counts sources found on a caustic to within round-off,
+	// where merging images get the magnification cap (see Solver).
+	OnCaustic int
 }
 
 // NewSolver returns a solver for b.
@@ -165,21 +174,22 @@ func (s *Solver) Images(dst []Image, zeta complex128) ([]Image, error) {
 	s.Stats.Calls++
 	zeta -= complex(s.o, 0)
 	s.coefficients(zeta)
-	// Attempt 0: warm start (when available). Attempt 1 and 2: cold starts from
-	// two different initial rings, with more sweeps allowed.
-	for attempt := 0; attempt < 3; attempt++ {
+	// Attempt 0: warm start (when available). Attempts 1 and 2: cold starts
+	// from two different initial rings, the second with more sweeps allowed.
+	// Attempts 3 and 4 repeat them accepting a source on a caustic.
+	for attempt := 0; attempt < 5; attempt++ {
 		if attempt == 0 && !s.warm {
 			continue
 		}
 		if attempt > 0 {
-			s.coldStart(attempt)
+			s.coldStart(1 + (attempt-1)%2)
 			s.Stats.Cold++
 			if attempt > 1 {
 				s.Stats.Retries++
 			}
 		}
 		maxSweeps := 60
-		if attempt == 2 {
+		if attempt >= 2 {
 			maxSweeps = 400
 		}
 		sweeps, ok := aberth(&s.c, s.deg, &s.roots, maxSweeps)
@@ -187,7 +197,7 @@ func (s *Solver) Images(dst []Image, zeta complex128) ([]Image, error) {
 		if !ok {
 			continue
 		}
-		out, ok := s.select_(dst, zeta)
+		out, ok := s.select_(dst, zeta, attempt >= 3)
 		if ok {
 			s.warm = true
 			return out, nil
@@ -390,9 +400,15 @@ func abs1(z complex128) float64 { return math.Abs(real(z)) + math.Abs(imag(z)) }
 // select_ polishes each root on the lens equation, keeps the true images and
 // checks the set. It appends the images to dst and reports whether the set is
 // valid.
-func (s *Solver) select_(dst []Image, zeta complex128) ([]Image, bool) {
+//
+// With onCaustic set (the last attempt), a set that fails those checks is
+// read as a source on a caustic to within round-off, see Solver.
+func (s *Solver) select_(dst []Image, zeta complex128, onCaustic bool) ([]Image, bool) {
 	z1, z2, m1, m2 := complex(s.z1, 0), complex(s.z2, 0), s.m1, s.m2
 	npos, nneg := 0, 0
+	var gray [5]complex128
+	var grayDet [5]float64
+	ng := 0
 	for k := 0; k < s.deg; k++ {
 		z := s.roots[k]
 		var f, e complex128
@@ -438,6 +454,14 @@ func (s *Solver) select_(dst []Image, zeta complex128) ([]Image, bool) {
 			accepted = false
 		}
 		if !accepted {
+			if res <= 1e-9*sc && math.Abs(det) < 1e-6 {
+				// A root with a small residual where Newton cannot converge
+				// because det J (nearly) vanishes: possibly an image on the
+				// critical curve, merging with others.
+				gray[ng] = z
+				grayDet[ng] = det
+				ng++
+			}
 			continue
 		}
 		// Two roots polished onto one image count once (in clustered roots
@@ -449,6 +473,13 @@ func (s *Solver) select_(dst []Image, zeta complex128) ([]Image, bool) {
 			}
 		}
 		if dup {
+			if onCaustic && math.Abs(det) < 1e-6 && ng < len(gray) {
+				// Merging images of a source on a cusp can share a root
+				// position to 1e-10.
+				gray[ng] = z
+				grayDet[ng] = det
+				ng++
+			}
 			continue
 		}
 		mag := 1 / det
@@ -464,10 +495,56 @@ func (s *Solver) select_(dst []Image, zeta complex128) ([]Image, bool) {
 		s.roots[k] = z
 	}
 	n := len(dst)
-	if (n != 3 && n != 5) || nneg-npos != 1 {
+	if (n == 3 || n == 5) && nneg-npos == 1 {
+		return dst, true
+	}
+	if !onCaustic {
 		return dst[:0], false
 	}
-	return dst, true
+	// The source sits on a caustic to within round-off (a fold or a cusp
+	// exactly, as for s = 2, q = 1/8, ζ = 0): the merging images are the
+	// roots kept in gray and any accepted image with |det J| < 1e-9, whose
+	// parity round-off decides. They keep |1/det J| at their position (capped
+	// at maxImageMag) with the parities the rule n− − n+ = 1 requires.
+	kept := dst[:0]
+	npos, nneg = 0, 0
+	for _, im := range dst {
+		if math.Abs(im.Mag) > 1e9 {
+			if ng == len(gray) {
+				return dst[:0], false
+			}
+			gray[ng] = im.Z - complex(s.o, 0)
+			grayDet[ng] = 1 / im.Mag
+			ng++
+			continue
+		}
+		if im.Mag > 0 {
+			npos++
+		} else {
+			nneg++
+		}
+		kept = append(kept, im)
+	}
+	dst, n = kept, len(kept)
+	if ng > 0 && (n+ng == 3 || n+ng == 5) {
+		needNeg := (n + ng + 1) / 2
+		addNeg := needNeg - nneg
+		if addNeg >= 0 && addNeg <= ng {
+			for i := 0; i < ng; i++ {
+				mag := maxImageMag
+				if d := math.Abs(grayDet[i]); d > 1/maxImageMag {
+					mag = 1 / d
+				}
+				if i < addNeg {
+					mag = -mag
+				}
+				dst = append(dst, Image{Z: gray[i] + complex(s.o, 0), Mag: mag})
+			}
+			s.Stats.OnCaustic++
+			return dst, true
+		}
+	}
+	return dst[:0], false
 }
 
 // resScale is the round-off scale of the lens-equation residual at z: the size

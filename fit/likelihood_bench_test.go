@@ -82,6 +82,7 @@ func benchChi2(b *testing.B, rho float64, single bool) {
 	}
 	b.Run("lensbook", func(b *testing.B) {
 		b.ReportAllocs()
+		c0 := cpuTime()
 		for b.Loop() {
 			c, err := l.Chi2(&p)
 			if err != nil {
@@ -89,13 +90,16 @@ func benchChi2(b *testing.B, rho float64, single bool) {
 			}
 			sinkChi2 = c
 		}
+		b.ReportMetric(float64(cpuTime()-c0)/1e6/float64(b.N), "cpu-ms/op")
 	})
 	b.Run("naive", func(b *testing.B) {
 		b.ReportAllocs()
 		m := lens.Model{Params: p, Ref: ev.Ref, Tol: ev.Tol}
+		c0 := cpuTime()
 		for b.Loop() {
 			sinkChi2 = naiveChi2(ev, m)
 		}
+		b.ReportMetric(float64(cpuTime()-c0)/1e6/float64(b.N), "cpu-ms/op")
 	})
 }
 
@@ -144,6 +148,7 @@ func demoGrid(b *testing.B) (*fit.Event, lens.Params) {
 // ~2900-point demo event, in one chunk on one goroutine.
 func BenchmarkGridDemo(b *testing.B) {
 	ev, start := demoGrid(b)
+	c0 := cpuTime()
 	for b.Loop() {
 		g, err := fit.RunGrid(context.Background(), ev, start, fit.GridSettings{}, nil)
 		if err != nil {
@@ -151,12 +156,15 @@ func BenchmarkGridDemo(b *testing.B) {
 		}
 		b.ReportMetric(float64(g.Evals), "evals")
 	}
+	b.ReportMetric(float64(cpuTime()-c0)/1e9/float64(b.N), "cpu-s/op")
 }
 
 // BenchmarkGridDemoTwoChunks runs the same grid as two chunks on two
 // goroutines and merges them.
 func BenchmarkGridDemoTwoChunks(b *testing.B) {
 	ev, start := demoGrid(b)
+	c0 := cpuTime()
+	defer func() { b.ReportMetric(float64(cpuTime()-c0)/1e9/float64(b.N), "cpu-s/op") }()
 	for b.Loop() {
 		parts := make([]*fit.GridResult, 2)
 		var wg sync.WaitGroup

@@ -3,8 +3,10 @@ package fit_test
 import (
 	"context"
 	"math"
+	"runtime"
 	"sync"
 	"testing"
+	"time"
 
 	"gonum.org/v1/gonum/mat"
 
@@ -82,7 +84,7 @@ func benchChi2(b *testing.B, rho float64, single bool) {
 	}
 	b.Run("lensbook", func(b *testing.B) {
 		b.ReportAllocs()
-		c0 := cpuTime()
+		c0 := gridCPUTime()
 		for b.Loop() {
 			c, err := l.Chi2(&p)
 			if err != nil {
@@ -90,16 +92,16 @@ func benchChi2(b *testing.B, rho float64, single bool) {
 			}
 			sinkChi2 = c
 		}
-		b.ReportMetric(float64(cpuTime()-c0)/1e6/float64(b.N), "cpu-ms/op")
+		b.ReportMetric(float64(gridCPUTime()-c0)/1e6/float64(b.N), "cpu-ms/op")
 	})
 	b.Run("naive", func(b *testing.B) {
 		b.ReportAllocs()
 		m := lens.Model{Params: p, Ref: ev.Ref, Tol: ev.Tol}
-		c0 := cpuTime()
+		c0 := gridCPUTime()
 		for b.Loop() {
 			sinkChi2 = naiveChi2(ev, m)
 		}
-		b.ReportMetric(float64(cpuTime()-c0)/1e6/float64(b.N), "cpu-ms/op")
+		b.ReportMetric(float64(gridCPUTime()-c0)/1e6/float64(b.N), "cpu-ms/op")
 	})
 }
 
@@ -148,7 +150,7 @@ func demoGrid(b *testing.B) (*fit.Event, lens.Params) {
 // ~2900-point demo event, in one chunk on one goroutine.
 func BenchmarkGridDemo(b *testing.B) {
 	ev, start := demoGrid(b)
-	c0 := cpuTime()
+	c0 := gridCPUTime()
 	for b.Loop() {
 		g, err := fit.RunGrid(context.Background(), ev, start, fit.GridSettings{}, nil)
 		if err != nil {
@@ -156,15 +158,22 @@ func BenchmarkGridDemo(b *testing.B) {
 		}
 		b.ReportMetric(float64(g.Evals), "evals")
 	}
-	b.ReportMetric(float64(cpuTime()-c0)/1e9/float64(b.N), "cpu-s/op")
+	b.ReportMetric(float64(gridCPUTime()-c0)/1e9/float64(b.N), "cpu-s/op")
 }
 
 // BenchmarkGridDemoTwoChunks runs the same grid as two chunks on two
-// goroutines and merges them.
+// goroutines (each locked to its OS thread) and merges them. Besides wall and
+// total CPU time it reports each chunk's thread CPU time: on two free cores
+// the wall time would be the larger of the two.
 func BenchmarkGridDemoTwoChunks(b *testing.B) {
 	ev, start := demoGrid(b)
-	c0 := cpuTime()
-	defer func() { b.ReportMetric(float64(cpuTime()-c0)/1e9/float64(b.N), "cpu-s/op") }()
+	c0 := gridCPUTime()
+	var chunkCPU [2]time.Duration
+	defer func() {
+		b.ReportMetric(float64(gridCPUTime()-c0)/1e9/float64(b.N), "cpu-s/op")
+		b.ReportMetric(chunkCPU[0].Seconds()/float64(b.N), "chunk0-cpu-s/op")
+		b.ReportMetric(chunkCPU[1].Seconds()/float64(b.N), "chunk1-cpu-s/op")
+	}()
 	for b.Loop() {
 		parts := make([]*fit.GridResult, 2)
 		var wg sync.WaitGroup
@@ -172,6 +181,10 @@ func BenchmarkGridDemoTwoChunks(b *testing.B) {
 			wg.Add(1)
 			go func() {
 				defer wg.Done()
+				runtime.LockOSThread()
+				defer runtime.UnlockOSThread()
+				t0 := gridThreadCPUTime()
+				defer func() { chunkCPU[c] += gridThreadCPUTime() - t0 }()
 				g, err := fit.RunGridChunk(context.Background(), ev, start, fit.GridSettings{}, c, 2, nil)
 				if err != nil {
 					b.Error(err)

@@ -8,9 +8,13 @@
 package e2e
 
 import (
+	"bytes"
 	"context"
 	"encoding/json"
 	"fmt"
+	"image"
+	"image/color"
+	"image/png"
 	"net"
 	"net/http"
 	"net/url"
@@ -382,4 +386,60 @@ func chromedpUpload(p *page, sel string, files []string) error {
 	ctx, cancel := context.WithTimeout(p.ctx, 30*time.Second)
 	defer cancel()
 	return chromedp.Do(ctx, chromedp.SetUploadFiles(chromedp.CSS(sel), files, chromedp.NodeReady))
+}
+
+// screenshotSmall saves the visible viewport as a PNG of at most maxBytes,
+// halving the resolution step by step (box filter) until it fits: the
+// README's screenshot.
+func (p *page) screenshotSmall(path string, maxBytes int) {
+	p.t.Helper()
+	raw, err := chromedp.Run(p.ctx, chromedp.CaptureScreenshot())
+	if err != nil {
+		p.t.Fatal(err)
+	}
+	img, err := png.Decode(bytes.NewReader(raw))
+	if err != nil {
+		p.t.Fatal(err)
+	}
+	for scale := 1.0; scale > 0.2; scale *= 0.8 {
+		small := shrink(img, scale)
+		var buf bytes.Buffer
+		enc := png.Encoder{CompressionLevel: png.BestCompression}
+		if err := enc.Encode(&buf, small); err != nil {
+			p.t.Fatal(err)
+		}
+		if buf.Len() <= maxBytes {
+			if err := os.WriteFile(path, buf.Bytes(), 0o644); err != nil {
+				p.t.Fatal(err)
+			}
+			p.t.Logf("screenshot %s: %dx%d, %d bytes", path, small.Bounds().Dx(), small.Bounds().Dy(), buf.Len())
+			return
+		}
+	}
+	p.t.Errorf("screenshot does not fit in %d bytes", maxBytes)
+}
+
+// shrink scales img by f (≤ 1) with a box filter.
+func shrink(img image.Image, f float64) image.Image {
+	if f >= 1 {
+		return img
+	}
+	b := img.Bounds()
+	w, h := int(float64(b.Dx())*f), int(float64(b.Dy())*f)
+	out := image.NewNRGBA(image.Rect(0, 0, w, h))
+	for y := range h {
+		y0, y1 := b.Min.Y+int(float64(y)/f), b.Min.Y+int(float64(y+1)/f)
+		for x := range w {
+			x0, x1 := b.Min.X+int(float64(x)/f), b.Min.X+int(float64(x+1)/f)
+			var r, g, bl, n uint32
+			for yy := y0; yy < max(y1, y0+1); yy++ {
+				for xx := x0; xx < max(x1, x0+1); xx++ {
+					cr, cg, cb, _ := img.At(xx, yy).RGBA()
+					r, g, bl, n = r+cr, g+cg, bl+cb, n+1
+				}
+			}
+			out.Set(x, y, color.NRGBA{uint8(r / n >> 8), uint8(g / n >> 8), uint8(bl / n >> 8), 255})
+		}
+	}
+	return out
 }

@@ -185,8 +185,11 @@ func TestDemoFlow(t *testing.T) {
 	p.runStep("posterior", 5*time.Minute)
 	p.screenshot(filepath.Join(t.TempDir(), "flow.png"))
 	if path := os.Getenv("LENSBOOK_SCREENSHOT"); path != "" {
+		// the README picture: light curve with the model, and the steps
+		p.click("#zoom-anomaly")
 		p.eval(`window.scrollTo(0, 0), true`)
-		p.screenshot(path)
+		time.Sleep(300 * time.Millisecond)
+		p.screenshotSmall(path, 300<<10)
 	}
 
 	// exports download with the expected content
@@ -241,7 +244,9 @@ func TestDemoFlow(t *testing.T) {
 func TestCancel(t *testing.T) {
 	p := newPage(t)
 	p.open("")
-	uploadDemo(t, p)
+	// the "Demo event" button loads the same files the upload test uses
+	p.click("#demo")
+	p.waitJS(`lensbook.current().datasets.length === `+itoa(len(readTruth(t).Sites))+` && lensbook.steps().data.status === "done"`, time.Minute)
 	p.runStep("single", 2*time.Minute)
 	// the default grid: far longer than the test waits
 	p.click("#run-grid")

@@ -2,10 +2,17 @@
 // thread. Each job gets progress callbacks and can be cancelled; a worker that
 // does not acknowledge a cancel within CANCEL_GRACE_MS is terminated and
 // replaced, so Cancel always takes effect within a second.
+//
+// Long steps (fits, grid chunks, sampling) run on `size` compute workers;
+// short ones (reading files, edits, plot curves, merges, exports) on one extra
+// light worker, so the page stays usable while a long step runs.
 
 import { PROTOCOL_VERSION, type Progress, type Reply, type Request } from "./protocol";
 
 const CANCEL_GRACE_MS = 600;
+
+/** Steps that take milliseconds: they run on the light worker. */
+const LIGHT_STEPS = new Set(["info", "notebook-new", "notebook-decode", "notebook-encode", "preview", "parse", "edit", "mask", "grid-merge", "curves", "export"]);
 
 export interface JobResult<T> {
   kind: "result" | "cancelled";
@@ -36,8 +43,10 @@ interface Pending {
 
 export class EnginePool {
   private slots: Slot[] = [];
+  private light: Slot[] = [];
   private nextId = 1;
   private queue: Array<() => void> = [];
+  private lightQueue: Array<() => void> = [];
   /** Every request sent, in order (the end-to-end test replays them natively). */
   readonly log: Request[] = [];
   /** Final result of each finished request by id (the end-to-end test compares them with native runs). */
@@ -45,6 +54,7 @@ export class EnginePool {
   steps: string[] = [];
 
   constructor(readonly size: number) {
+    this.light.push(this.spawn());
     for (let i = 0; i < size; i++) this.slots.push(this.spawn());
   }
 
@@ -54,7 +64,7 @@ export class EnginePool {
 
   /** Resolves with the step names the engine offers, once the first worker runs. */
   async ready(): Promise<string[]> {
-    this.steps = await this.slots[0].ready;
+    this.steps = await this.light[0].ready;
     return this.steps;
   }
 
@@ -110,16 +120,18 @@ export class EnginePool {
 
   private release(slot: Slot): void {
     slot.busy = false;
-    const next = this.queue.shift();
+    const next = (this.light.includes(slot) ? this.lightQueue : this.queue).shift();
     if (next) next();
   }
 
-  private acquire(): Promise<Slot> {
+  private acquire(light: boolean): Promise<Slot> {
+    const slots = light ? this.light : this.slots;
+    const queue = light ? this.lightQueue : this.queue;
     return new Promise((resolve) => {
       const tryTake = () => {
-        const s = this.slots.find((x) => !x.busy);
+        const s = slots.find((x) => !x.busy);
         if (!s) {
-          this.queue.push(tryTake);
+          queue.push(tryTake);
           return;
         }
         s.busy = true;
@@ -138,7 +150,7 @@ export class EnginePool {
     let pend: Pending | undefined;
     let cancelled = false;
     const done = new Promise<JobResult<T>>((resolve, reject) => {
-      this.acquire().then(async (slot) => {
+      this.acquire(LIGHT_STEPS.has(step)).then(async (slot) => {
         slotRef = slot;
         pend = { resolve: resolve as (r: JobResult<unknown>) => void, reject, onProgress, settled: false };
         if (cancelled) {
@@ -172,11 +184,11 @@ export class EnginePool {
         p.settled = true;
         slot.jobs.delete(id);
         slot.worker.terminate();
-        const i = this.slots.indexOf(slot);
+        const list = this.light.includes(slot) ? this.light : this.slots;
         const fresh = this.spawn();
-        if (i >= 0) this.slots[i] = fresh;
+        list[list.indexOf(slot)] = fresh;
         p.resolve({ kind: "cancelled", result: p.lastPartial, elapsedMs: NaN });
-        const next = this.queue.shift();
+        const next = (list === this.light ? this.lightQueue : this.queue).shift();
         if (next) next();
       }, CANCEL_GRACE_MS);
     };

@@ -490,9 +490,15 @@ async function runGrid(): Promise<void> {
     track(jobs);
     const parts = await Promise.all(jobs.map((j) => j.done));
     const cancelled = parts.some((p) => p.kind === "cancelled");
-    const got = parts.map((p) => p.result ?? null).filter((x) => x !== null);
-    if (got.length === 0) throw new Error("Cancelled before any grid node finished.");
-    const merged = await call<GridOut>("grid-merge", { parts: got, keep: Number(steps.refine.settings.keep) || 6 });
+    // A worker stopped before replying leaves only the nodes it reported.
+    const got: unknown[] = [];
+    const lost: unknown[] = [];
+    parts.forEach((p, k) => {
+      if (p.result && !Array.isArray(p.result)) got.push(p.result);
+      else if (done[k].length) lost.push({ start: start.params, settings, chunk: k, chunks, nodes: done[k] });
+    });
+    if (got.length === 0 && lost.length === 0) throw new Error("Cancelled before any grid node finished.");
+    const merged = await call<GridOut>("grid-merge", { parts: got, lost, keep: Number(steps.refine.settings.keep) || 6 });
     return { result: merged, cancelled };
   });
 }

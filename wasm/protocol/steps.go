@@ -352,6 +352,18 @@ func stepGrid(ctx context.Context, raw json.RawMessage, report func(Progress)) (
 type mergeIn struct {
 	Parts []*fit.GridResult `json:"parts"`
 	Keep  int               `json:"keep"`
+	// Lost lists chunks whose worker was stopped before it replied (a cancel
+	// it could not acknowledge in time): the nodes it reported in progress
+	// messages, with the grid they belong to, so they are kept.
+	Lost []lostChunk `json:"lost"`
+}
+
+type lostChunk struct {
+	Start    lens.Params      `json:"start"`
+	Settings fit.GridSettings `json:"settings"`
+	Chunk    int              `json:"chunk"`
+	Chunks   int              `json:"chunks"`
+	Nodes    []fit.GridNode   `json:"nodes"`
 }
 
 // GridOut is the merged grid with its χ² map and best distinct minima.
@@ -376,6 +388,21 @@ func stepGridMerge(_ context.Context, raw json.RawMessage, _ func(Progress)) (an
 		if p != nil {
 			parts = append(parts, p)
 		}
+	}
+	for _, l := range in.Lost {
+		g, err := fit.NewGrid(l.Start, l.Settings)
+		if err != nil {
+			return nil, err
+		}
+		g.Chunks, g.NChunks, g.Status = []int{l.Chunk}, l.Chunks, fit.Cancelled
+		for _, nd := range l.Nodes {
+			if nd.Index < 0 || nd.Index >= len(g.Nodes) || g.Nodes[nd.Index].IS != nd.IS || g.Nodes[nd.Index].IQ != nd.IQ {
+				return nil, fmt.Errorf("grid node %d does not belong to this grid", nd.Index)
+			}
+			g.Nodes[nd.Index] = nd
+			g.Evals += nd.Evals
+		}
+		parts = append(parts, g)
 	}
 	if len(parts) == 0 {
 		return nil, errors.New("no grid chunk finished")

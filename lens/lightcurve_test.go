@@ -47,7 +47,11 @@ func TestLightCurveBinaryPointSource(t *testing.T) {
 		{Params: Params{T0: 100, U0: -0.1, TE: 30, S: 0.7, Q: 0.2, Alpha: 2.5, DsDt: 1.5, DAlphaDt: 3}},
 		{Params: Params{T0: 100, U0: 0, TE: 30, S: 1.6, Q: 1e-3, Alpha: 0.3}, Ref: CentralCaustic},
 	} {
-		times := linspace(m.T0-45, m.T0+45, 1500)
+		np := 1500
+		if testing.Short() {
+			np = 400
+		}
+		times := linspace(m.T0-45, m.T0+45, np)
 		dst := make([]float64, len(times))
 		if err := LightCurve(dst, &m, times, nil); err != nil {
 			t.Fatal(err)

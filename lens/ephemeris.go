@@ -4,19 +4,28 @@ import "math"
 
 // Solar ephemeris for annual parallax.
 //
-// The Sun's geometric position as seen from the Earth's centre follows the
-// "low accuracy" solar theory of Meeus (1998, Astronomical Algorithms, 2nd ed.,
-// ch. 25: mean longitude, mean anomaly, equation of the centre and eccentricity
-// as polynomials in Julian centuries), referred to the mean equator and equinox
-// of date with the mean obliquity of Meeus eq. 22.2, then rotated to the J2000
-// mean equator and equinox (within 0.02″ of the ICRS axes) with the IAU 1976
-// precession angles ζ, z, θ (Lieske et al. 1977, A&A 58, 1; Meeus eq. 21.3).
-// Against ERFA's epv00 (pyerfa 2.0.0.1) the position is within 1.6e-4 AU over
-// 2000–2040 (see testdata/ephemeris and the tests): 0.01° ≈ 1.7e-4 AU is the
-// accuracy Meeus gives for the theory, ample for microlens parallax, whose
-// offsets are a fraction πE ≲ 1 of the Earth's orbit.
+// The Sun's geometric position as seen from the Earth's centre comes from the
+// VSOP87 planetary theory (Bretagnon & Francou 1988, A&A 202, 309), series D
+// (heliocentric ecliptic coordinates L, B, R of the Earth referred to the
+// ecliptic and equinox of date), truncated to its largest terms (down to
+// 1e-6 rad in L0 and 2.6e-7 AU in R0; 115 terms) as tabulated in Meeus (1998,
+// Astronomical Algorithms, 2nd ed., Appendix III; coefficients transcribed from
+// memory and verified against ERFA, see below).
+// The lunar terms of VSOP87 (arguments D, D ± M, F) are replaced by an explicit
+// Earth–Moon-barycentre offset from a short lunar theory (moonPosition), which
+// follows the monthly wobble of the Earth (3e-5 AU, 7e-6 AU/day) more closely.
 //
-// Times are Julian dates. The theory wants TT; UTC, TDB or the HJD of the data
+// The ecliptic of date is turned into the mean equator of date with the mean
+// obliquity of Meeus eq. 22.2, then rotated to the J2000 mean equator and
+// equinox (within 0.02″ of the ICRS axes) with the IAU 1976 precession angles
+// ζ, z, θ (Lieske et al. 1977, A&A 58, 1; Meeus eq. 21.3). The 0.09″ FK5
+// correction of VSOP87 longitudes (Meeus ch. 32) is below 5e-7 AU and omitted.
+//
+// Against ERFA's epv00 (pyerfa 2.0.0.1, testdata/ephemeris, 2000–2040) the
+// position is within 1e-5 AU and the velocity within 2e-7 AU/day; references
+// for the trade put 1e-4 AU as ample for microlens parallax (references.md §12).
+//
+// Times are Julian dates. The theory wants TDB; UTC, TT or the HJD of the data
 // shift the epoch by ≤ 70 s (time scales, ≈ 1e-5 AU of Earth motion) or ≤ 8.3 min
 // (HJD − JD, ≤ 1e-4 AU in s(t), far less in the offsets of ParallaxOffsets,
 // which remove the position and velocity at the reference epoch).
@@ -26,34 +35,106 @@ const deg = math.Pi / 180
 // arcsec is one second of arc in radians.
 const arcsec = deg / 3600
 
+// vsopTerm is one periodic term A cos(B + C τ) of a VSOP87 series, A in 1e-8
+// (rad or AU), B in rad, C in rad per Julian millennium.
+type vsopTerm struct{ a, b, c float64 }
+
+// VSOP87D Earth, truncated (see the file comment); lunar terms removed.
+var (
+	vsopL = [][]vsopTerm{
+		{ // L0
+			{175347046, 0, 0}, {3341656, 4.6692568, 6283.07585}, {34894, 4.6261, 12566.1517},
+			{3497, 2.7441, 5753.3849}, {3418, 2.8289, 3.5231}, {2676, 4.4181, 7860.4194},
+			{2343, 6.1352, 3930.2097}, {1324, 0.7425, 11506.7698}, {1273, 2.0371, 529.691},
+			{1199, 1.1096, 1577.3435}, {990, 5.233, 5884.927}, {902, 2.045, 26.298},
+			{857, 3.508, 398.149}, {780, 1.179, 5223.694}, {753, 2.533, 5507.553},
+			{505, 4.583, 18849.228}, {492, 4.205, 775.523}, {357, 2.92, 0.067},
+			{317, 5.849, 11790.629}, {284, 1.899, 796.298}, {271, 0.315, 10977.079},
+			{243, 0.345, 5486.778}, {206, 4.806, 2544.314}, {205, 1.869, 5573.143},
+			{202, 2.458, 6069.777}, {156, 0.833, 213.299}, {132, 3.411, 2942.463},
+			{126, 1.083, 20.775}, {115, 0.645, 0.98}, {103, 0.636, 4694.003},
+		},
+		{ // L1
+			{628331966747, 0, 0}, {206059, 2.678235, 6283.07585}, {4303, 2.6351, 12566.1517},
+			{425, 1.59, 3.523}, {119, 5.796, 26.298}, {109, 2.966, 1577.344}, {93, 2.59, 18849.23},
+			{72, 1.14, 529.69}, {68, 1.87, 398.15}, {67, 4.41, 5507.55}, {59, 2.89, 5223.69},
+			{56, 2.17, 155.42}, {45, 0.4, 796.3}, {36, 0.47, 775.52},
+		},
+		{ // L2
+			{52919, 0, 0}, {8720, 1.0721, 6283.0758}, {309, 0.867, 12566.152}, {27, 0.05, 3.52},
+			{16, 5.19, 26.3}, {16, 3.68, 155.42}, {10, 0.76, 18849.23},
+		},
+		{{289, 5.844, 6283.076}, {35, 0, 0}, {17, 5.49, 12566.15}}, // L3
+		{{114, 3.142, 0}}, // L4
+	}
+	vsopB = [][]vsopTerm{
+		{{102, 5.422, 5507.553}, {80, 3.88, 5223.69}, {44, 3.7, 2352.87}, {32, 4, 1577.34}}, // B0
+		{{9, 3.9, 5507.55}, {6, 1.73, 5223.69}},                                             // B1
+	}
+	vsopR = [][]vsopTerm{
+		{ // R0
+			{100013989, 0, 0}, {1670700, 3.0984635, 6283.07585}, {13956, 3.05525, 12566.1517},
+			{1628, 1.1739, 5753.3849}, {1576, 2.8469, 7860.4194}, {925, 5.453, 11506.77},
+			{542, 4.564, 3930.21}, {472, 3.661, 5884.927}, {346, 0.964, 5507.553},
+			{329, 5.9, 5223.694}, {307, 0.299, 5573.143}, {243, 4.273, 11790.629},
+			{212, 5.847, 1577.344}, {186, 5.022, 10977.079}, {175, 3.012, 18849.228},
+			{110, 5.055, 5486.778}, {98, 0.89, 6069.78}, {86, 5.69, 15720.84},
+			{65, 0.27, 17260.15}, {63, 0.92, 529.69}, {49, 3.25, 2544.31},
+			{47, 2.58, 775.52}, {45, 5.54, 9437.76}, {43, 6.01, 6275.96},
+			{39, 5.36, 4694}, {38, 2.39, 8827.39}, {37, 0.83, 19651.05},
+			{37, 4.9, 12139.55}, {36, 1.67, 12036.46}, {35, 1.84, 2942.46},
+			{33, 0.24, 7084.9}, {32, 0.18, 5088.63}, {32, 1.78, 398.15},
+			{28, 1.21, 6286.6}, {28, 1.9, 6279.55}, {26, 4.59, 10447.39},
+		},
+		{ // R1
+			{103019, 1.10749, 6283.07585}, {1721, 1.0644, 12566.1517}, {702, 3.142, 0},
+			{32, 1.02, 18849.23}, {31, 2.84, 5507.55}, {25, 1.32, 5223.69}, {18, 1.42, 1577.34},
+			{10, 5.91, 10977.08}, {9, 1.42, 6275.96}, {9, 0.27, 5486.78},
+		},
+		{{4359, 5.7846, 6283.0758}, {124, 5.579, 12566.152}, {12, 3.14, 0}, {6, 1.87, 5573.14}, {3, 5.47, 18849.23}}, // R2
+		{{145, 4.273, 6283.076}, {7, 3.92, 12566.15}}, // R3
+		{{4, 2.56, 6283.08}},                          // R4
+	}
+)
+
+// vsopSum evaluates Σₖ τᵏ Σ A cos(B + Cτ) over the series of one coordinate.
+func vsopSum(series [][]vsopTerm, tau float64) float64 {
+	var sum float64
+	pow := 1.0
+	for _, terms := range series {
+		var s float64
+		for _, x := range terms {
+			s += x.a * math.Cos(x.b+x.c*tau)
+		}
+		sum += s * pow
+		pow *= tau
+	}
+	return sum * 1e-8
+}
+
 // SunPosition returns the geocentric position of the Sun (AU) at Julian date jd,
 // in equatorial axes of the J2000 mean equator and equinox (ICRS-aligned): x
 // towards the equinox, z towards the north celestial pole. It is minus the
 // Earth's heliocentric position. NaN in, NaN out.
 func SunPosition(jd float64) [3]float64 {
 	t := (jd - 2451545.0) / 36525 // Julian centuries from J2000.0
-	// Meeus (1998) eqs. 25.2–25.5, degrees.
-	l0 := 280.46646 + t*(36000.76983+t*0.0003032)
-	m := (357.52911 + t*(35999.05029-t*0.0001537))
-	e := 0.016708634 - t*(0.000042037+t*0.0000001267)
-	sm, cm := math.Sincos(math.Mod(m, 360) * deg)
-	s2m := 2 * sm * cm
-	s3m := sm * (3 - 4*sm*sm)
-	c := (1.914602-t*(0.004817+t*0.000014))*sm + (0.019993-t*0.000101)*s2m + 0.000289*s3m
-	lon := math.Mod(l0+c, 360) * deg // true geometric longitude, mean equinox of date
-	nu := math.Mod(m+c, 360) * deg   // true anomaly
-	r := 1.000001018 * (1 - e*e) / (1 + e*math.Cos(nu))
-
-	// Mean obliquity of date, Meeus eq. 22.2 (IAU 1976).
-	eps := (84381.448 - t*(46.8150+t*(0.00059-t*0.001813))) * arcsec
-	sl, cl := math.Sincos(lon)
-	se, ce := math.Sincos(eps)
-	// Ecliptic of date: the Sun from the Earth–Moon barycentre, plus the
-	// Earth's offset from that barycentre, the Moon's geocentric position times
-	// m_Moon/(m_Earth + m_Moon) (the monthly wobble: 3e-5 AU, 7e-6 AU/day).
-	xe, ye, ze := r*cl, r*sl, 0.0
+	tau := t / 10                 // Julian millennia, the VSOP87 time argument
+	// Heliocentric Earth–Moon barycentre (VSOP87 without its lunar terms),
+	// turned round into the geocentric Sun: longitude + π, latitude −B.
+	lon := vsopSum(vsopL, tau) + math.Pi
+	lat := -vsopSum(vsopB, tau)
+	r := vsopSum(vsopR, tau)
+	sl, cl := math.Sincos(math.Mod(lon, 2*math.Pi))
+	sb, cb := math.Sincos(lat)
+	xe, ye, ze := r*cb*cl, r*cb*sl, r*sb
+	// The Earth's offset from the barycentre: the Moon's geocentric position
+	// times m_Moon/(m_Earth + m_Moon) moves the Sun as seen from the Earth by +.
 	mx, my, mz := moonPosition(t)
 	xe, ye, ze = xe+mx*moonFraction, ye+my*moonFraction, ze+mz*moonFraction
+
+	// Ecliptic → mean equator of date, mean obliquity of Meeus eq. 22.2 (IAU 1976).
+	eps := (84381.448 - t*(46.8150+t*(0.00059-t*0.001813))) * arcsec
+	se, ce := math.Sincos(eps)
 	x, y, z := xe, ye*ce-ze*se, ye*se+ze*ce
 
 	// Mean equator of date → J2000: r₂₀₀₀ = R3(ζ) R2(−θ) R3(z) r_date, the
@@ -81,8 +162,9 @@ const auKm = 149597870.7
 // equinox of date, t in Julian centuries from J2000.0, from the largest terms of
 // the lunar theory in Meeus (1998, ch. 47: mean elements eqs. 47.1–47.5, and the
 // terms above 0.1° in longitude, 0.2° in latitude and 500 km in distance of
-// tables 47.A–47.B). That keeps its error near 0.3°, i.e. below 2e-7 AU once
-// scaled by moonFraction.
+// tables 47.A–47.B; coefficients transcribed from memory). The omitted terms
+// amount to a few tenths of a degree (estimate), ≲ 2e-7 AU once scaled by
+// moonFraction; TestSunPositionERFA bounds the whole ephemeris.
 func moonPosition(t float64) (x, y, z float64) {
 	lp := 218.3164477 + 481267.88123421*t // mean longitude
 	d := (297.8501921 + 445267.1114034*t) * deg

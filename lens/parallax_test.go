@@ -11,10 +11,9 @@ import (
 // with the same construction from ERFA epv00 positions and velocities
 // (testdata/ephemeris/earth_erfa_2026.csv, daily through 2026). Δs removes the
 // position and velocity at tref, so only the curvature of the ephemeris error
-// remains. Measured: ≤ 1.6e-4 AU within ±100 days, ≤ 2.6e-4 AU within ±180 days,
-// dominated by the ephemeris velocity error at tref (≈ 1.7e-6 AU/day, see
-// TestSunPositionERFA) times t − tref; ≤ 2e-6 AU within ±10 days. Budgets
-// 2e-4, 3e-4 and 1e-5 AU: times πE ≲ 1, a few 1e-4 θE at most.
+// remains. Measured: ≤ 4e-7 AU within ±10 days, ≤ 1.2e-5 AU within ±100 days,
+// ≤ 1.4e-5 AU within ±180 days. Budgets 2e-6, 3e-5 and 3e-5 AU; times πE ≲ 1
+// these are ≲ 3e-5 θE, far below what light curves constrain.
 func TestParallaxOffsetsERFA(t *testing.T) {
 	rows := readErfa(t, "earth_erfa_2026.csv")
 	ra, dec := 270*deg, -30*deg
@@ -47,7 +46,7 @@ func TestParallaxOffsetsERFA(t *testing.T) {
 			}
 		}
 		t.Logf("tref JD %.1f: max |Δs − Δs_ERFA| = %.3g, %.3g, %.3g AU within ±10, ±100, ±180 d", tref, worst10, worst100, worst180)
-		if !(worst10 <= 1e-5 && worst100 <= 2e-4 && worst180 <= 3e-4) {
+		if !(worst10 <= 2e-6 && worst100 <= 3e-5 && worst180 <= 3e-5) {
 			t.Errorf("tref JD %.1f: offsets differ from ERFA by %.3g (±10 d), %.3g (±100 d), %.3g (±180 d) AU", tref, worst10, worst100, worst180)
 		}
 	}

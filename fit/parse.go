@@ -676,21 +676,45 @@ func pow10(x float64) float64 {
 	if x < -323.5 {
 		return 0
 	}
-	// 10^x = 10^k · 10^f with k the nearest integer and f in [−0.5, 0.5]:
-	// 10^k from exact powers of ten, 10^f = e^(f·ln10) by its series.
+	// x = k + j/16 + r with k, j integers, |j| ≤ 8 and |r| ≤ 1/32:
+	// 10^x = 10^k · 10^(j/16) · e^(r·ln10), 10^k from exact powers of ten,
+	// 10^(j/16) from a table of correctly rounded constants, and e^y for
+	// |y| ≤ 0.072 by its Taylor series to degree 9 (remainder below
+	// 0.072^10/10! ≈ 1e-18, under one ulp).
 	k := math.Floor(x + 0.5)
-	f := x - k // exact (Sterbenz) for the ranges we use
-	y := f * math.Ln10
-	// Taylor series of e^y for |y| ≤ 1.152, 24 terms: the remainder is below
-	// 1.152^25/25! ≈ 5e-24, far under one ulp. Each product is rounded
-	// explicitly (float64 conversion) so no platform may fuse multiply-adds.
-	s := 1.0
-	term := 1.0
-	for i := 1; i <= 24; i++ {
-		term = float64(term*y) / float64(i)
-		s += term
+	f := x - k
+	j := math.Floor(f*16 + 0.5)
+	r := f - j/16
+	y := r * math.Ln10
+	// Horner form; every product is rounded explicitly (float64
+	// conversion) so no platform may fuse multiply-adds.
+	p := 1.0 / 362880
+	for _, c := range [...]float64{1.0 / 40320, 1.0 / 5040, 1.0 / 720, 1.0 / 120, 1.0 / 24, 1.0 / 6, 0.5, 1, 1} {
+		p = float64(p*y) + c
 	}
-	return s * exp10int(int(k))
+	return float64(p*pow10frac[int(j)+8]) * exp10int(int(k))
+}
+
+// pow10frac[j+8] = 10^(j/16), correctly rounded (50-digit decimal
+// arithmetic, Python decimal module).
+var pow10frac = [17]float64{
+	0.316227766016837933199889354443, // 10^(-8/16)
+	0.365174127254837705824995256604, // 10^(-7/16)
+	0.421696503428582248569013359509, // 10^(-6/16)
+	0.486967525165863114935297485034, // 10^(-5/16)
+	0.562341325190349080394951039776, // 10^(-4/16)
+	0.649381631576211315128032840697, // 10^(-3/16)
+	0.749894209332455827302184275615, // 10^(-2/16)
+	0.865964323360065352353169183420, // 10^(-1/16)
+	1,                                // 10^0
+	1.154781984689458179666482887295, // 10^(1/16)
+	1.333521432163324025675931715295, // 10^(2/16)
+	1.539926526059491989570485994945, // 10^(3/16)
+	1.778279410038922801225421195192, // 10^(4/16)
+	2.053525026457146074605752348295, // 10^(5/16)
+	2.371373705661655261651752757478, // 10^(6/16)
+	2.738419634264361294188696987389, // 10^(7/16)
+	3.162277660168379331998893544432, // 10^(8/16)
 }
 
 // exp10int returns 10^k for integer k by exact powers and at most two

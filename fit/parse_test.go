@@ -511,7 +511,7 @@ func TestParseFingerprintStable(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	const want = "865505048968d27eb1574df5afc0ef3d24b022b43665a23c7b4f5db8a8dd6029"
+	const want = "7b3ac6b55da712f53f23bf88d594ac3ebabf427488ea04cf6fe53fada7702047"
 	if got := DatasetFingerprint(d); got != want {
 		t.Errorf("fingerprint %s, want %s", got, want)
 	}

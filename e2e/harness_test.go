@@ -443,3 +443,15 @@ func shrink(img image.Image, f float64) image.Image {
 	}
 	return out
 }
+
+func chromedpReload(p *page) error {
+	ctx, cancel := context.WithTimeout(p.ctx, 30*time.Second)
+	defer cancel()
+	return chromedp.Do(ctx, chromedp.Reload())
+}
+
+func chromedpNavigate(p *page, u string) error {
+	ctx, cancel := context.WithTimeout(p.ctx, 30*time.Second)
+	defer cancel()
+	return chromedp.Do(ctx, chromedp.Navigate(u))
+}

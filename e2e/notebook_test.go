@@ -273,3 +273,109 @@ func TestCancel(t *testing.T) {
 		t.Errorf("console errors: %v", errs)
 	}
 }
+
+// TestDemoTiming runs the demo event as a new user would — Demo event button,
+// single lens, the default binary grid, refine — and checks the end-to-end
+// time budget. The worker count is the page's default,
+// max(1, hardwareConcurrency − 1).
+func TestDemoTiming(t *testing.T) {
+	tr := readTruth(t)
+	p := newPage(t)
+	p.open("")
+	start := time.Now()
+	p.click("#demo")
+	p.waitJS(`lensbook.current().datasets.length === `+itoa(len(tr.Sites))+` && lensbook.steps().data.status === "done"`, time.Minute)
+	workers := p.eval(`lensbook.engine.size`)
+	longTasks(p)
+	p.runStep("single", 2*time.Minute)
+	p.runStep("grid", 10*time.Minute)
+	p.runStep("refine", 5*time.Minute)
+	total := time.Since(start)
+	lt, nlt, _, _, _ := maxLongTask(p)
+	var best struct{ S, Q float64 }
+	p.evalInto(`(() => { const r = document.querySelector("#refine-table tr[data-solution]"); return {S: Number(r.querySelector("[data-param=S]").dataset.value), Q: Number(r.querySelector("[data-param=Q]").dataset.value)}; })()`, &best)
+	t.Logf("demo end to end with the default grid on %v compute worker(s): %v; best s = %.4f, q = %.3g; page long tasks %d, longest %.0f ms", workers, total.Round(time.Second), best.S, best.Q, nlt, lt)
+	if total > maxDemoRunTime {
+		t.Errorf("demo end to end took %v, budget %v", total.Round(time.Second), maxDemoRunTime)
+	}
+	if lt > maxLongTaskMS {
+		t.Errorf("page thread blocked %.0f ms (budget %.0f ms)", lt, maxLongTaskMS)
+	}
+	ls := math.Log10(best.S)
+	if math.Min(math.Abs(ls-math.Log10(tr.Params["s"])), math.Abs(ls+math.Log10(tr.Params["s"]))) > 0.03 || math.Abs(math.Log10(best.Q/tr.Params["q"])) > 0.15 {
+		t.Errorf("default grid found s = %.4f, q = %.4g; truth s = %.4f, q = %.4g", best.S, best.Q, tr.Params["s"], tr.Params["q"])
+	}
+}
+
+// TestSharingAndSafety: a hostile dataset name shows as text, the notebook is
+// autosaved and restored after a reload, and a fit link opened in a fresh
+// browser profile shows its contents first and then reproduces the results table.
+func TestSharingAndSafety(t *testing.T) {
+	p := newPage(t)
+	p.open("")
+	uploadDemo(t, p)
+	const hostile = `<img src=x onerror=alert(1)>`
+	p.setInput(`#datasets input[aria-label="name of dataset 1"]`, hostile)
+	p.waitJS(`lensbook.current().datasets[0].name === `+jsString(hostile), 10*time.Second)
+	p.runStep("single", 2*time.Minute)
+	if n := p.eval(`document.querySelectorAll("img").length`); n != 0.0 {
+		t.Errorf("a dataset name became markup: %v <img> elements in the page", n)
+	}
+	if s, _ := p.eval(`document.body.innerText`).(string); !strings.Contains(s, hostile) {
+		t.Error("the hostile name is not shown as text")
+	}
+	var table []string
+	p.evalInto(`Array.from(document.querySelectorAll("#single-table td")).map(e => e.textContent)`, &table)
+
+	// autosave → reload → restore
+	p.waitJS(`/autosaved/.test(document.querySelector("#autosave").textContent)`, 10*time.Second)
+	if err := chromedpReload(p); err != nil {
+		t.Fatal(err)
+	}
+	p.waitJS(`document.body.dataset.ready === "1"`, time.Minute)
+	p.waitJS(`!!document.querySelector("[data-restore]")`, 10*time.Second)
+	p.click("[data-restore]")
+	p.waitJS(`!!document.querySelector("#single-table")`, 20*time.Second)
+	var restored []string
+	p.evalInto(`Array.from(document.querySelectorAll("#single-table td")).map(e => e.textContent)`, &restored)
+	if strings.Join(restored, "|") != strings.Join(table, "|") {
+		t.Errorf("restored notebook differs:\nbefore %v\nafter  %v", table, restored)
+	}
+
+	// fit link → fresh profile → offer → open → same table
+	p.click("#link")
+	p.waitJS(`location.hash.startsWith("#lb1")`, 20*time.Second)
+	link := p.eval(`location.href`).(string)
+	t.Logf("fit link: %d characters (%s)", len(link), link[:strings.Index(link, "#")+6])
+	q := newPage(t)
+	if err := chromedpNavigate(q, link); err != nil {
+		t.Fatal(err)
+	}
+	q.waitJS(`!!document.querySelector("#offer-open")`, time.Minute)
+	if s, _ := q.eval(`document.querySelector("#offer").innerText`).(string); !strings.Contains(s, "points") {
+		t.Errorf("link offer does not describe the contents: %q", s)
+	}
+	if n := q.eval(`lensbook.current().datasets.length`); n != 0.0 {
+		t.Errorf("the link replaced the notebook before the user agreed (%v datasets)", n)
+	}
+	q.click("#offer-open")
+	q.waitJS(`!!document.querySelector("#single-table")`, 20*time.Second)
+	var linked []string
+	q.evalInto(`Array.from(document.querySelectorAll("#single-table td")).map(e => e.textContent)`, &linked)
+	if strings.Join(linked, "|") != strings.Join(table, "|") {
+		t.Errorf("notebook from the link differs:\nbefore %v\nafter  %v", table, linked)
+	}
+	for _, pg := range []*page{p, q} {
+		if errs := pg.consoleErrors(); len(errs) > 0 {
+			t.Errorf("console errors: %v", errs)
+		}
+		if bad := pg.offOrigin(); len(bad) > 0 {
+			t.Errorf("requests outside the origin: %v", bad)
+		}
+	}
+}
+
+func jsString(s string) string {
+	b, _ := json.Marshal(s)
+	return string(b)
+}

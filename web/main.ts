@@ -30,6 +30,7 @@ import {
   type Steps,
 } from "./notebook";
 import type { Progress } from "./protocol";
+import * as persist from "./persist";
 
 const TIME_OFFSET = 2450000; // display HJD′ = JD − 2450000 (common practice)
 
@@ -55,18 +56,18 @@ interface Pending {
 }
 let pending: Pending[] = [];
 
-/** fit.Preview (Go field names). */
+/** fit.Preview */
 interface Preview {
-  File: string;
-  Format: string;
-  Names: string[];
-  Columns: number;
-  Rows: string[][];
-  RowLines: number[];
-  DataRows: number;
-  Proposed: ImportOptions;
-  Why: string[] | null;
-  OffsetAmbiguous: boolean;
+  file: string;
+  format: string;
+  names: string[] | null;
+  columns: number;
+  rows: string[][] | null;
+  row_lines: number[] | null;
+  data_rows: number;
+  proposed: ImportOptions;
+  why: string[] | null;
+  offset_ambiguous: boolean;
 }
 /** fit.ImportOptions */
 interface ImportOptions {
@@ -170,6 +171,152 @@ function datasets() {
 
 function notify(): void {
   for (const f of listeners) f();
+  scheduleAutosave();
+}
+
+// ---------- autosave (IndexedDB) ----------
+
+let notebookId = persist.newId();
+let autosaveTimer: number | undefined;
+
+function scheduleAutosave(): void {
+  if (!doc || datasets().length === 0) return;
+  clearTimeout(autosaveTimer);
+  autosaveTimer = window.setTimeout(() => void autosave(), 800);
+}
+
+async function autosave(): Promise<void> {
+  const d = fullDoc();
+  if (!d) return;
+  const st = $("#autosave");
+  try {
+    await persist.save({
+      id: notebookId,
+      title: d.title || d.event.name || datasets()[0]?.name || "untitled",
+      savedAt: Date.now(),
+      datasets: d.datasets.length,
+      points: d.datasets.reduce((n, x) => n + x.points, 0),
+      doc: JSON.stringify(d),
+    });
+    st.textContent = "autosaved " + new Date().toLocaleTimeString();
+    st.className = "engine";
+  } catch (e) {
+    st.textContent = "Autosave failed: " + (e as Error).message;
+    st.className = "engine error";
+  }
+}
+
+/** Offers the notebooks kept in this browser, newest first. */
+async function offerRestore(): Promise<void> {
+  let saved: persist.Saved[];
+  try {
+    saved = await persist.list();
+  } catch (e) {
+    $("#autosave").textContent = "Autosave unavailable: " + (e as Error).message;
+    $("#autosave").className = "engine error";
+    return;
+  }
+  if (saved.length === 0) return;
+  const box = $("#offer");
+  clear(box);
+  box.append(el("h3", { text: "Notebooks kept in this browser" }));
+  const ul = el("ul", { class: "saved" });
+  for (const n of saved) {
+    const restore = el("button", { class: "small", "data-restore": n.id, text: "Restore" });
+    restore.addEventListener("click", async () => {
+      if (await openDocText(n.doc)) {
+        notebookId = n.id;
+        box.hidden = true;
+      }
+    });
+    const del = el("button", { class: "small", "data-delete": n.id, text: "Delete" });
+    del.addEventListener("click", async () => {
+      try {
+        await persist.remove(n.id);
+        li.remove();
+        if (!ul.children.length) box.hidden = true;
+      } catch (e) {
+        alertBox("Could not delete: " + (e as Error).message);
+      }
+    });
+    const li = el("li", {}, el("strong", { text: n.title }), ` · ${n.datasets} dataset${n.datasets === 1 ? "" : "s"}, ${n.points} points · saved ${new Date(n.savedAt).toLocaleString()} `, restore, " ", del);
+    ul.append(li);
+  }
+  const dismiss = el("button", { class: "small", text: "Start fresh" });
+  dismiss.addEventListener("click", () => (box.hidden = true));
+  box.append(ul, dismiss);
+  box.hidden = false;
+}
+
+// ---------- fit links ----------
+
+interface Contents {
+  kind: string;
+  bytes: number;
+  title: string;
+  event: string;
+  points: number;
+  datasets: { name: string; band: string; file: string; points: number; masked: number; included: boolean }[] | null;
+  steps: { kind: string; status: string }[] | null;
+  warnings: string[] | null;
+}
+
+async function makeLink(): Promise<void> {
+  const d = fullDoc();
+  if (!d || !datasets().length) {
+    alertBox("Add data first: a fit link carries the notebook.");
+    return;
+  }
+  try {
+    const r = await call<{ link: string; contents: Contents }>("link-encode", { notebook: d, model_only: false });
+    history.replaceState(null, "", "#" + r.link);
+    let copied = false;
+    try {
+      await navigator.clipboard.writeText(location.href);
+      copied = true;
+    } catch {
+      /* no clipboard permission: the address bar holds the link */
+    }
+    const what = r.contents.kind === "model link" ? "a model link (parameters and a fingerprint of the data; the recipient needs the data files)" : "a full link (data included)";
+    alertBox(`The address bar now holds ${what}, ${Math.round(r.link.length / 1000)} kB${copied ? "; copied to the clipboard" : ""}. The notebook travels in the part after #, which browsers never send to a server.`);
+  } catch (e) {
+    alertBox("Could not make a link: " + (e as Error).message);
+  }
+}
+
+/** Shows what a link or file holds and opens it only when the user agrees. */
+function offerOpen(c: Contents, docObj: NotebookDoc, source: string): void {
+  const box = $("#offer");
+  clear(box);
+  box.append(el("h3", { text: `This ${source} holds a notebook` }));
+  const facts = el("ul", { class: "saved" });
+  facts.append(el("li", { text: `${c.kind}${c.title ? ": " + c.title : ""}${c.event ? " · event " + c.event : ""} · ${c.points} points` }));
+  for (const d of c.datasets ?? []) facts.append(el("li", { text: `dataset “${d.name}”${d.band ? " (" + d.band + ")" : ""}: ${d.points} points${d.included ? "" : " — data not included, you will be asked for " + (d.file || "the file")}${d.masked ? `, ${d.masked} masked` : ""}` }));
+  for (const st of c.steps ?? []) facts.append(el("li", { text: `step ${st.kind}: ${st.status}` }));
+  for (const w of c.warnings ?? []) facts.append(el("li", { class: "warn", text: "Note: " + w }));
+  const yes = el("button", { class: "primary", id: "offer-open", text: datasets().length ? "Replace my notebook with it" : "Open it" });
+  yes.addEventListener("click", () => {
+    box.hidden = true;
+    notebookId = persist.newId();
+    adoptDoc(docObj);
+  });
+  const no = el("button", { id: "offer-keep", text: "Keep what I have" });
+  no.addEventListener("click", () => (box.hidden = true));
+  box.append(facts, yes, " ", no);
+  box.hidden = false;
+}
+
+async function openLinkFromURL(): Promise<boolean> {
+  const h = decodeURIComponent(location.hash.slice(1));
+  if (!h.startsWith("lb1")) return false;
+  try {
+    const r = await call<{ notebook: NotebookDoc; contents: Contents }>("link-decode", { link: h });
+    r.contents.bytes = h.length;
+    offerOpen(r.contents, r.notebook, "link");
+  } catch (e) {
+    alertBox("This link cannot be opened: " + (e as Error).message);
+  }
+  return true;
 }
 
 function changed(from: StepId): void {
@@ -273,7 +420,7 @@ async function addFiles(files: { name: string; text: string }[]): Promise<void> 
     pending.push(p);
     try {
       p.preview = await call<Preview>("preview", { file: f.name, text: f.text });
-      p.options = { ...p.preview.Proposed };
+      p.options = { ...p.preview.proposed };
     } catch (e) {
       p.error = (e as Error).message;
     }
@@ -349,6 +496,16 @@ function renderData(body: HTMLElement): void {
   }
 
   const ds = datasets();
+  ds.forEach((d, k) => {
+    if (!d.omitted) return;
+    const inp = el("input", { type: "file", "aria-label": `data file for ${d.name}`, "data-attach": k });
+    inp.addEventListener("change", async () => {
+      const f = inp.files?.[0];
+      if (!f) return;
+      await edit("attach", { index: k, file: f.name, text: await f.text() }, `Attached ${f.name}: fingerprint matches.`);
+    });
+    body.append(el("div", { class: "pending" }, el("p", { class: "warn", text: `Dataset “${d.name}” waits for its data: ${d.source.file || "the original file"}, ${d.points} points. Choose the same file; its numbers are checked against the fingerprint ${d.fingerprint.slice(0, 12)}….` }), inp));
+  });
   if (ds.length) {
     const tbl = el("table", { class: "datasets", id: "datasets" });
     tbl.append(el("tr", {}, ...["", "name", "band", "time system", "zero point", "limb dark. u", "points", "masked", "excluded lines", ""].map((h) => el("th", { text: h }))));
@@ -415,12 +572,12 @@ function renderPending(p: Pending): HTMLElement {
   if (!p.preview || !p.options) return box;
   const m = p.options;
   const pv = p.preview;
-  const cols = Array.from({ length: pv.Columns }, (_, i) => i + 1);
-  const name = (c: number) => pv.Names[c - 1] || `column ${c}`;
+  const cols = Array.from({ length: pv.columns }, (_, i) => i + 1);
+  const name = (c: number) => pv.names?.[c - 1] || `column ${c}`;
   const tbl = el("table", { class: "preview" });
   tbl.append(el("tr", {}, el("th", { text: "line" }), ...cols.map((c) => el("th", { text: name(c) }))));
-  pv.Rows.slice(0, 6).forEach((r, i) => tbl.append(el("tr", {}, el("td", { text: String(pv.RowLines[i]) }), ...cols.map((c) => el("td", { text: r[c - 1] ?? "" })))));
-  box.append(tbl, el("p", { class: "hint", text: `${pv.DataRows} data rows · ${pv.Format}` }));
+  (pv.rows ?? []).slice(0, 6).forEach((r, i) => tbl.append(el("tr", {}, el("td", { text: String(pv.row_lines?.[i] ?? "") }), ...cols.map((c) => el("td", { text: r[c - 1] ?? "" })))));
+  box.append(tbl, el("p", { class: "hint", text: `${pv.data_rows} data rows · ${pv.format}` }));
   const sel = (label: string, key: "time_col" | "value_col" | "err_col") => {
     const s = el("select", { "aria-label": label });
     cols.forEach((c) => s.append(el("option", { value: c, text: name(c), selected: m[key] === c })));
@@ -452,8 +609,8 @@ function renderPending(p: Pending): HTMLElement {
     el("div", { class: "mapping" }, sel("time", "time_col"), sel("value", "value_col"), sel("uncertainty", "err_col"), el("label", {}, "values are ", kind), el("label", {}, "times are ", off)),
     el("div", { class: "mapping" }, text("name", "name"), text("band", "band"), text("time system", "time_system"), num("zero point", "zero_point"), num("limb darkening u", "ld")),
   );
-  if (pv.OffsetAmbiguous) box.append(el("p", { class: "warn", text: "The times fit more than one convention: check “times are”." }));
-  if (pv.Why?.length) box.append(el("p", { class: "hint", text: pv.Why.join(" · ") }));
+  if (pv.offset_ambiguous) box.append(el("p", { class: "warn", text: "The times fit more than one convention: check “times are”." }));
+  if (pv.why?.length) box.append(el("p", { class: "hint", text: pv.why.join(" · ") }));
   return box;
 }
 
@@ -585,29 +742,41 @@ async function saveNotebook(): Promise<void> {
 }
 
 async function openNotebookText(text: string): Promise<void> {
+  if (await openDocText(text)) notebookId = persist.newId();
+}
+
+/** Decodes a notebook document (validated by the engine) and opens it. */
+async function openDocText(text: string): Promise<boolean> {
   try {
-    const d = await call<NotebookDoc>("notebook-decode", { file: "", text });
-    doc = { ...d, steps: [] };
-    steps = newSteps();
-    for (const s of d.steps ?? []) {
-      const id = STEP_ORDER.find((k) => STEP_KIND[k] === s.kind || k === s.id);
-      if (!id) continue;
-      const st = steps[id];
-      if (s.settings && typeof s.settings === "object") st.settings = s.settings as Record<string, unknown>;
-      st.result = s.result;
-      st.status = s.status === "done" ? "done" : s.status === "cancelled" ? "cancelled" : s.status === "failed" ? "error" : "empty";
-      st.stale = !!s.note?.startsWith("stale");
-      if (Number(s.seed)) seed = Number(s.seed);
-    }
-    pending = [];
-    selected = 0;
-    steps.data.status = datasets().length ? "done" : "empty";
-    renderAll();
-    notify();
-    await updateCurves();
+    const r = await call<{ notebook: NotebookDoc; contents: Contents }>("describe", { file: "", text });
+    adoptDoc(r.notebook);
+    return true;
   } catch (e) {
     alertBox("Could not open the notebook: " + (e as Error).message);
+    return false;
   }
+}
+
+/** Makes a validated document the open notebook, with its steps. */
+function adoptDoc(d: NotebookDoc): void {
+  doc = { ...d, steps: [] };
+  steps = newSteps();
+  for (const s of d.steps ?? []) {
+    const id = STEP_ORDER.find((k) => STEP_KIND[k] === s.kind || k === s.id);
+    if (!id) continue;
+    const st = steps[id];
+    if (s.settings && typeof s.settings === "object") st.settings = s.settings as Record<string, unknown>;
+    st.result = s.result;
+    st.status = s.status === "done" ? "done" : s.status === "cancelled" ? "cancelled" : s.status === "failed" ? "error" : "empty";
+    st.stale = !!s.note?.startsWith("stale");
+    if (Number(s.seed)) seed = Number(s.seed);
+  }
+  pending = [];
+  selected = 0;
+  steps.data.status = datasets().length ? "done" : "empty";
+  renderAll();
+  notify();
+  void updateCurves();
 }
 
 // ---------- rendering ----------
@@ -1090,6 +1259,7 @@ function mapViewOnDemand(): void {
 function boot(): void {
   $("#demo").addEventListener("click", () => void loadDemo());
   $("#save").addEventListener("click", () => void saveNotebook());
+  $("#link").addEventListener("click", () => void makeLink());
   const open = $("#open-input") as HTMLInputElement;
   open.addEventListener("change", async () => {
     const f = open.files?.[0];
@@ -1118,6 +1288,7 @@ function boot(): void {
       document.body.dataset.ready = "1";
       document.body.dataset.readyAt = String(performance.now());
       renderAll();
+      if (!(await openLinkFromURL())) await offerRestore();
     })
     .catch((e) => {
       $("#engine").textContent = "engine failed to start";

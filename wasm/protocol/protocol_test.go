@@ -98,7 +98,9 @@ func TestDataSteps(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		var pv struct{ Proposed json.RawMessage }
+		var pv struct {
+			Proposed json.RawMessage `json:"proposed"`
+		}
 		call(t, ctx, "preview", map[string]string{"file": e.Name(), "text": string(text)}, &pv)
 		call(t, ctx, "parse", map[string]any{"notebook": doc, "file": e.Name(), "text": string(text), "options": pv.Proposed}, &doc)
 		n++

@@ -289,7 +289,8 @@ func limbDisk(u, rho, gamma float64, g *gaussRule) float64 {
 // and ≈ 1e-11 for a limb-darkened source; smaller tol gets that.
 //
 // Special cases are as for PointMag (rho = 0) and LimbDiskMag (rho > 0); a
-// negative or NaN rho or tol gives NaN.
+// negative or NaN u or rho, ld outside [0, 1] (even for a point source) or a
+// NaN tol gives NaN.
 func SingleMag(u, rho, ld, tol float64) float64 {
 	switch {
 	case !(u >= 0) || !(rho >= 0) || !(ld >= 0 && ld <= 1) || math.IsNaN(tol):

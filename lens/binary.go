@@ -103,7 +103,7 @@ type Solver struct {
 	prevRoots       [5]complex128
 	prevZeta, zeta0 complex128
 	hist            bool
-	imgs  [5]Image // scratch for Mag
+	imgs            [5]Image // scratch for Mag
 
 	// Stats counts solver work since the last Reset: calls, Aberth sweeps and
 	// cold restarts. Tests and benchmarks read it.

@@ -96,6 +96,10 @@ const (
 	MaxFileBytes = 64 << 20
 	MaxRows      = 1_000_000 // data rows (accepted or rejected)
 	MaxLines     = 2_000_000 // lines of any kind
+	// MaxRejected bounds the problems recorded for one file: a file with
+	// more bad rows than this is read with the wrong settings, and its
+	// record would crowd the notebook (MaxRejectedRows in all).
+	MaxRejected = 100_000
 )
 
 // TimeOffset is a constant that, added to the times in a file, gives full
@@ -175,6 +179,9 @@ func (o *ImportOptions) check(ncol int) error {
 	for _, s := range []string{o.Name, o.Band, o.TimeSystem} {
 		if len(s) > MaxNameLen {
 			return fmt.Errorf("fit: label longer than %d bytes", MaxNameLen)
+		}
+		if cleanLabel(s) != s {
+			return fmt.Errorf("fit: label %q contains control characters or invalid UTF-8", clip(s))
 		}
 	}
 	return nil
@@ -442,6 +449,10 @@ func Parse(name string, data []byte, opts ImportOptions) (*Dataset, error) {
 			}
 		}
 	}
+	if clean := clip2(cleanLabel(name), MaxNameLen-8); clean != name {
+		name = clean
+		t.file = clean
+	}
 	if opts.Name == "" {
 		opts.Name = name
 	}
@@ -510,6 +521,10 @@ func Parse(name string, data []byte, opts ImportOptions) (*Dataset, error) {
 		}
 		if len(src.Rejected) > nbefore {
 			src.Lines.Rejected++
+			if len(src.Rejected) > MaxRejected {
+				return nil, fmt.Errorf("fit: %s: more than %d problems by line %d (first: line %d: %s); check the column choice and the file format",
+					name, MaxRejected, lineNo, src.Rejected[0].Line, src.Rejected[0].Reason)
+			}
 		}
 	}
 	if t.ncol > 3 {
@@ -519,10 +534,10 @@ func Parse(name string, data []byte, opts ImportOptions) (*Dataset, error) {
 				ign = append(ign, fmt.Sprintf("%d (%s)", c, t.names[c-1]))
 			}
 		}
-		src.Notes = append(src.Notes, "ignored columns: "+strings.Join(ign, ", "))
+		src.Notes = append(src.Notes, clip2("ignored columns: "+strings.Join(ign, ", "), MaxNameLen-8))
 	}
 	if t.headerLine > 0 {
-		src.Notes = append(src.Notes, fmt.Sprintf("line %d read as column names: %s", t.headerLine, strings.Join(t.names, ", ")))
+		src.Notes = append(src.Notes, clip2(fmt.Sprintf("line %d read as column names: %s", t.headerLine, strings.Join(t.names, ", ")), MaxNameLen-8))
 	}
 	if opts.TimeOffset != 0 {
 		src.Notes = append(src.Notes, fmt.Sprintf("%s days added to every time", strconv.FormatFloat(opts.TimeOffset, 'f', -1, 64)))

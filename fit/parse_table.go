@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"strconv"
 	"strings"
+	"unicode"
 	"unicode/utf8"
 )
 
@@ -171,9 +172,21 @@ func (t *table) scanPlain() error {
 func cleanNames(f []string) []string {
 	out := make([]string, len(f))
 	for i, s := range f {
-		out[i] = clip(strings.ToValidUTF8(s, "\uFFFD"))
+		out[i] = clip(cleanLabel(s))
 	}
 	return out
+}
+
+// cleanLabel replaces invalid UTF-8 and control characters (which labels in
+// a notebook may not hold) by U+FFFD.
+func cleanLabel(s string) string {
+	s = strings.ToValidUTF8(s, "\uFFFD")
+	return strings.Map(func(r rune) rune {
+		if unicode.IsControl(r) {
+			return '\uFFFD'
+		}
+		return r
+	}, s)
 }
 
 func hasComma(ln string) bool {

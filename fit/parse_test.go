@@ -363,6 +363,8 @@ func TestParseRefusals(t *testing.T) {
 		{"binary", []byte("9000\x00 1 2\n"), magOpts, "NUL byte"},
 		{"too many lines", bytes.Repeat([]byte("\n"), MaxLines+1), magOpts, "lines, more than"},
 		{"too many rows", bytes.Repeat([]byte("1 2 3\n"), MaxRows+1), magOpts, "data rows"},
+		{"too many problems", bytes.Repeat([]byte("1 x 3\n"), MaxRejected+1), magOpts, "more than 100000 problems"},
+		{"control character in label", good, ImportOptions{TimeCol: 1, ValueCol: 2, ErrCol: 3, Kind: KindMag, Band: "I\x00"}, "control characters"},
 		{"only comments", []byte("# nothing\n\n"), magOpts, "no data rows"},
 		{"all rows bad", []byte("9000.1 17.5 0\n"), magOpts, "no valid data rows"},
 		{"bad LD", good, ImportOptions{TimeCol: 1, ValueCol: 2, ErrCol: 3, Kind: KindMag, LD: 1.5}, "limb-darkening"},
@@ -376,6 +378,28 @@ func TestParseRefusals(t *testing.T) {
 				t.Errorf("err = %v, want it to contain %q", err, tc.want)
 			}
 		})
+	}
+}
+
+// TestParseLabelsForNotebook: whatever the file and header hold, the
+// dataset can be saved in a notebook (labels cleaned and bounded).
+func TestParseLabelsForNotebook(t *testing.T) {
+	var hdr strings.Builder
+	hdr.WriteString("t m e")
+	for i := range 300 {
+		fmt.Fprintf(&hdr, " extra\x01column%d", i)
+	}
+	hdr.WriteString("\n2459000.1 17 0.1" + strings.Repeat(" 0", 300) + "\n")
+	d, err := Parse("bad\x07name\xff.dat", []byte(hdr.String()), magOpts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if d.Name != "bad\uFFFDname\uFFFD.dat" || d.Source.File != d.Name {
+		t.Errorf("name %q", d.Name)
+	}
+	nb := &Notebook{Event: NewEvent("e", d)}
+	if _, err := EncodeNotebook(nb); err != nil {
+		t.Errorf("parsed dataset cannot be saved: %v", err)
 	}
 }
 
@@ -450,6 +474,12 @@ func FuzzParse(f *testing.F) {
 				continue
 			}
 			checkAccounting(t, data, d)
+			if err == nil {
+				// Whatever was accepted can be saved in a notebook.
+				if _, err := EncodeNotebook(&Notebook{Event: NewEvent("fz", d)}); err != nil {
+					t.Fatalf("parsed dataset cannot be saved: %v", err)
+				}
+			}
 		}
 	})
 }

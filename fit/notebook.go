@@ -431,6 +431,18 @@ func ReadNotebook(r io.Reader) (*Notebook, error) {
 	return DecodeNotebook(data)
 }
 
+// OpenNotebook decodes a notebook file and describes it (Contents.Kind
+// "notebook") so the page can show what it holds before replacing anything.
+func OpenNotebook(data []byte) (*Notebook, *Contents, error) {
+	nb, err := DecodeNotebook(data)
+	if err != nil {
+		return nil, nil, err
+	}
+	c := Describe(nb, "notebook")
+	c.Bytes = len(data)
+	return nb, c, nil
+}
+
 // migrations[v] turns a version-v document (as a JSON object) into version
 // v+1. Version 1 is the first published version, so there is nothing to
 // migrate yet; the loop in DecodeNotebook runs every migration in order once

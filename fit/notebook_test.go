@@ -103,6 +103,10 @@ func TestNotebookRoundTrip(t *testing.T) {
 	if again := encodeOK(t, got); !bytes.Equal(again, doc) {
 		t.Error("re-encoding gives different bytes")
 	}
+	nb2, c, err := OpenNotebook(doc)
+	if err != nil || c.Kind != "notebook" || c.Bytes != len(doc) || c.Points != 560 || c.Fingerprint != nb.Fingerprint() || nb2 == nil {
+		t.Errorf("OpenNotebook: %+v, %v", c, err)
+	}
 	if !strings.Contains(string(doc), `"seed":"18446744073709551615"`) {
 		t.Error("seed not written as a decimal string")
 	}

@@ -227,3 +227,27 @@ func FuzzReadECSV(f *testing.F) {
 		equalTables(t, back, tb)
 	})
 }
+
+func TestECSVEdgeTables(t *testing.T) {
+	// Zero rows, and metadata with line breaks and tabs (escaped in the YAML
+	// header, so the table text keeps one row per line).
+	want := &Table{
+		Columns: []Column{{Name: "x", Float: []float64{}}, {Name: "s", String: []string{}}},
+		Meta:    []Meta{{"notes", "line one\nline two\twith tab"}, {"key: with colon", "v"}},
+	}
+	var buf bytes.Buffer
+	if err := WriteECSV(&buf, want); err != nil {
+		t.Fatal(err)
+	}
+	if strings.Count(buf.String(), "\n") != 10 {
+		t.Errorf("unexpected layout:\n%s", buf.String())
+	}
+	got, err := ReadECSV(&buf)
+	if err != nil {
+		t.Fatal(err)
+	}
+	equalTables(t, got, want)
+	if got.Columns[0].Float == nil || got.Columns[1].String == nil {
+		t.Error("empty columns lost their kind")
+	}
+}

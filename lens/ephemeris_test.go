@@ -173,3 +173,15 @@ func ExampleSunSky() {
 	// Output:
 	// s = (-0.116, 0.012) AU, ds/dt = (-3.1e-05, -0.0169) AU/day
 }
+
+// TestVsopGrouping: the frequency-grouped evaluation equals the direct sum of
+// the VSOP87 terms (to the merging of equal arguments printed to different
+// digits: Σ A·ΔC·|τ| ≈ 1e-9 rad or AU over 1900–2100).
+func TestVsopGrouping(t *testing.T) {
+	for tau := -0.1; tau <= 0.1; tau += 0.0013 {
+		l, b, r := vsopLBR(tau)
+		if d := math.Max(math.Abs(l-vsopSum(vsopL, tau)), math.Max(math.Abs(b-vsopSum(vsopB, tau)), math.Abs(r-vsopSum(vsopR, tau)))); d > 2e-9 {
+			t.Errorf("τ=%g: grouped and direct VSOP87 sums differ by %g", tau, d)
+		}
+	}
+}

@@ -183,14 +183,15 @@ func (s *Solver) Images(dst []Image, zeta complex128) ([]Image, error) {
 	s.coefficients(zeta)
 	s.predict(zeta)
 	// Attempt 0: warm start (when available). Attempts 1 and 2: cold starts
-	// from two different initial rings, the second with more sweeps allowed.
-	// Attempts 3 and 4 repeat them accepting a source on a caustic.
+	// from two different sets of guesses, the second with more sweeps
+	// allowed. Attempts 3 and 4 try again accepting a source on a caustic.
 	for attempt := 0; attempt < 5; attempt++ {
 		if attempt == 0 && !s.warm {
 			continue
 		}
 		if attempt > 0 {
-			s.coldStart(1 + (attempt-1)%2)
+			// 1: physical guesses, 2: ring, 3: physical again, 4: half ring.
+			s.coldStart([5]int{0, 0, 1, 0, 2}[attempt], zeta)
 			s.Stats.Cold++
 			if attempt > 1 {
 				s.Stats.Retries++
@@ -305,14 +306,38 @@ func (s *Solver) coefficients(zeta complex128) {
 	}
 }
 
-// coldStart places the initial roots. Attempt 1 uses the physical picture of
-// a binary lens (images near the source, near each lens and on the Einstein
-// ring); attempt 2 uses the classical Aberth ring around the root centroid.
-func (s *Solver) coldStart(attempt int) {
+// coldStart places the initial roots. Kind 0 uses the physical picture of a
+// binary lens: the major image near the source displaced by both deflections,
+// one minor image next to each lens (first-order solutions of the lens
+// equation there), and two guesses off the axis on the Einstein ring, where
+// the extra pair of a five-image source lies. Kinds 1 and 2 use the classical
+// Aberth ring around the root centroid, with a radius from a Fujiwara-type
+// bound (full and halved). Guesses need only be distinct; a bad set costs
+// sweeps, not correctness.
+func (s *Solver) coldStart(kind int, zeta complex128) {
 	n := s.deg
-	// Root centroid and a radius from the Fujiwara-type bound on the monic
-	// polynomial shifted to the centroid (computed on unshifted coefficients;
-	// only the order of magnitude matters).
+	if kind == 0 && n == 5 {
+		a, b := complex(s.z1, 0), complex(s.z2, 0)
+		m1, m2 := complex(s.m1, 0), complex(s.m2, 0)
+		conj := func(z complex128) complex128 { return complex(real(z), -imag(z)) }
+		cm := complex(-s.o, 0) // centre of mass in the working frame
+		s.roots[0] = zeta + cdiv(m1, conj(zeta-a)) + cdiv(m2, conj(zeta-b))
+		s.roots[1] = a + cdiv(m1, conj(a-zeta-cdiv(m2, a-b)))
+		s.roots[2] = b + cdiv(m2, conj(b-zeta-cdiv(m1, b-a)))
+		s.roots[3] = cm + complex(0.13, 0.97)
+		s.roots[4] = cm + complex(-0.11, -1.03)
+		ok := true
+		for k := 0; k < n && ok; k++ {
+			ok = finite(real(s.roots[k])) && finite(imag(s.roots[k]))
+			for j := 0; j < k && ok; j++ {
+				ok = s.roots[k] != s.roots[j]
+			}
+		}
+		if ok {
+			return
+		}
+		kind = 1
+	}
 	lead := s.c[n]
 	cen := -s.c[n-1] / (complex(float64(n), 0) * lead)
 	r := 0.0
@@ -325,10 +350,10 @@ func (s *Solver) coldStart(attempt int) {
 	if !(r > 0) || math.IsInf(r, 0) {
 		r = 1
 	}
-	if attempt == 1 {
+	if kind == 2 {
 		r *= 0.5
 	}
-	off := 0.4 + 0.7*float64(attempt)
+	off := 0.4 + 0.7*float64(kind)
 	for k := 0; k < n; k++ {
 		sn, cs := math.Sincos(2*math.Pi*float64(k)/float64(n) + off)
 		s.roots[k] = cen + complex(r*cs, r*sn)

@@ -430,7 +430,11 @@ async function runFrame(): Promise<void> {
   };
   cv.addEventListener("pointerdown", (e) => {
     if (e.button !== 0) return;
-    cv.setPointerCapture(e.pointerId);
+    try {
+      cv.setPointerCapture(e.pointerId);
+    } catch {
+      // synthetic events (tests, assistive tools) have no capturable pointer
+    }
     cv.focus();
     api.pointerDown(...at(e));
   });

@@ -22,7 +22,9 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"slices"
 	"strings"
+	"sync"
 	"testing"
 	"time"
 
@@ -181,26 +183,44 @@ func browser(t *testing.T, gl bool) context.Context {
 	}
 	actx, acancel := chromedp.NewExecAllocator(context.Background(), opts...)
 	ctx, cancel := chromedp.NewContext(actx)
-	t.Cleanup(func() { cancel(); acancel() })
+	// Start the browser before anything else uses ctx (two first users would
+	// both try to allocate it).
+	if err := chromedp.Do(ctx, chromedp.EmulateViewport(1100, 900)); err != nil {
+		cancel()
+		acancel()
+		t.Fatal(err)
+	}
+	var mu sync.Mutex
+	done := false
+	t.Cleanup(func() {
+		mu.Lock()
+		done = true
+		mu.Unlock()
+		cancel()
+		acancel()
+	})
 	go func() {
 		for m, err := range chromedp.Console(ctx) {
 			if err != nil {
 				return
 			}
 			if m.Type == chromedp.ConsoleError || m.IsException() {
-				t.Logf("console: %s", m.Text)
+				mu.Lock()
+				if !done {
+					t.Logf("console: %s", m.Text)
+				}
+				mu.Unlock()
 			}
 		}
 	}()
-	if err := chromedp.Do(ctx, chromedp.EmulateViewport(1100, 900)); err != nil {
-		t.Fatal(err)
-	}
 	return ctx
 }
 
 func eval[T any](t *testing.T, ctx context.Context, js string) T {
 	t.Helper()
-	v, err := chromedp.Run(ctx, chromedp.Evaluate[T](js))
+	ctx, cancel := context.WithTimeout(ctx, 60*time.Second)
+	defer cancel()
+	v, err := chromedp.Run(ctx, chromedp.Evaluate[T](js, chromedp.EvalAwaitPromise))
 	if err != nil {
 		t.Fatalf("%s: %v", js, err)
 	}
@@ -209,6 +229,8 @@ func eval[T any](t *testing.T, ctx context.Context, js string) T {
 
 func poll(t *testing.T, ctx context.Context, js string, d time.Duration) {
 	t.Helper()
+	ctx, cancel := context.WithTimeout(ctx, d+10*time.Second)
+	defer cancel()
 	if _, err := chromedp.Run(ctx, chromedp.Poll[bool](js, chromedp.WithPollingTimeout(d))); err != nil {
 		t.Fatalf("waiting for %s: %v", js, err)
 	}
@@ -220,6 +242,7 @@ type grips struct {
 	DPR          float64
 	U0, T0       float64
 	Alpha        float64
+	Scale        float64 // θE per device pixel
 }
 
 type frameStats struct {
@@ -228,6 +251,7 @@ type frameStats struct {
 	Grips       grips
 	Map         map[string]float64
 	MapDone     bool
+	Timing      map[string][]float64
 }
 
 func stats(t *testing.T, ctx context.Context) frameStats {
@@ -333,13 +357,18 @@ func runMapTests(t *testing.T, gl bool) {
 		dx, dy := math.Cos(st.Grips.Alpha), -math.Sin(st.Grips.Alpha)
 		drag(t, ctx, [2]float64{x, y}, [2]float64{x + 30*dx, y + 30*dy}, 6)
 		after = stats(t, ctx).Grips
-		if math.Abs(after.T0-st.Grips.T0) < 1e-6 || math.Abs(after.U0-st.Grips.U0) > 1e-3*math.Abs(st.Grips.U0)+1e-6 {
+		// ebiten reports integer cursor positions, so the drag may leave the
+		// line by up to a pixel.
+		if math.Abs(after.T0-st.Grips.T0) < 1e-6 || math.Abs(after.U0-st.Grips.U0) > 1.5*st.Grips.Scale {
 			t.Errorf("drag along the line: t0 %v → %v, u0 %v → %v; want t0 changed, u0 kept", st.Grips.T0, after.T0, st.Grips.U0, after.U0)
 		}
 	})
 
 	t.Run("rotate", func(t *testing.T) {
 		st := stats(t, ctx)
+		if !st.Grips.Visible {
+			t.Fatalf("handle not on screen: %+v", st.Grips)
+		}
 		x, y := pagePoint(t, ctx, st.Grips.Handle, st.Grips.DPR)
 		lx, ly := pagePoint(t, ctx, st.Grips.Line, st.Grips.DPR)
 		// Move the handle sideways, perpendicular to the line.
@@ -390,32 +419,40 @@ func runMapTests(t *testing.T, gl bool) {
 	})
 
 	t.Run("drag speed", func(t *testing.T) {
+		idle := eval[float64](t, ctx, `new Promise(r => { let n = 0; const t0 = performance.now(); const f = () => { if (++n === 60) r(59000 / (performance.now() - t0)); else requestAnimationFrame(f) }; requestAnimationFrame(f) })`)
+		t.Logf("%s: idle page frame rate %.1f/s", want, idle)
 		for _, rho := range []float64{0, 0.005} {
 			eval[bool](t, ctx, fmt.Sprintf(`(() => { const n = document.getElementById("mv-rho"); n.value = "%v"; n.dispatchEvent(new Event("change")); return true })()`, rho))
 			poll(t, ctx, fmt.Sprintf(`testHost.last().model.rho === %v && testHost.frameAPI().stats().mapDone`, rho), 30*time.Second)
 			st := stats(t, ctx)
-			x, y := pagePoint(t, ctx, st.Grips.Line, st.Grips.DPR)
 			eval[any](t, ctx, `testHost.frameAPI().resetFrames()`)
 			n0 := eval[int](t, ctx, `testHost.recv.length`)
+			// The drag is driven inside the page, one pointer move per
+			// animation frame for 120 frames, so the measured rate is the
+			// page's, not that of the DevTools round trips.
 			nx, ny := -math.Sin(st.Grips.Alpha), -math.Cos(st.Grips.Alpha)
-			start := time.Now()
-			drag(t, ctx, [2]float64{x, y}, [2]float64{x + 60*nx, y + 60*ny}, 60)
-			wall := time.Since(start)
+			res := eval[map[string]float64](t, ctx, fmt.Sprintf(`testHost.dragInPage(%v, %v, %v, %v, 120)`,
+				st.Grips.Line[0]/st.Grips.DPR, st.Grips.Line[1]/st.Grips.DPR, 60*nx, 60*ny))
 			fs := stats(t, ctx)
 			fr := fs.ModelFrames
 			if len(fr) < 10 {
 				t.Fatalf("ρ = %v: only %d model updates during the drag", rho, len(fr))
 			}
-			// Frame rate while the model was changing: updates per second
-			// between the first and the last update.
+			// Model updates per second between the first and the last update,
+			// and the longest gap between two updates.
 			fps := float64(len(fr)-1) / (fr[len(fr)-1] - fr[0]) * 1000
 			worst := 0.0
 			for i := 1; i < len(fr); i++ {
 				worst = math.Max(worst, fr[i]-fr[i-1])
 			}
 			nrecv := eval[int](t, ctx, `testHost.recv.length`) - n0
-			t.Logf("%s ρ=%v: %d model updates, %.1f updates/s (worst gap %.1f ms), light curve+χ² %.2f ms/update, %d states reached the host, drag wall %v",
-				want, rho, len(fr), fps, worst, fs.Map["curveMs"], nrecv, wall.Round(time.Millisecond))
+			t.Logf("%s ρ=%v: %d model updates in %.0f ms: %.1f updates/s (page frames %.1f/s, worst gap %.1f ms); light curve + χ² %.2f ms/update; %d states reached the host",
+				want, rho, len(fr), fr[len(fr)-1]-fr[0], fps, res["fps"], worst, fs.Map["curveMs"], nrecv)
+			for k, ts := range fs.Timing {
+				sorted := slices.Clone(ts)
+				slices.Sort(sorted)
+				t.Logf("%s ρ=%v: %s time per call: median %.1f ms, 90th percentile %.1f ms (%d calls)", want, rho, k, sorted[len(sorted)/2], sorted[len(sorted)*9/10], len(sorted))
+			}
 			minFPS := 30.0
 			if rho > 0 {
 				minFPS = 15

@@ -38,6 +38,8 @@ type game struct {
 	lastX   int
 	lastY   int
 	ready   bool
+	dirty   bool // the screen must be redrawn
+	ov      overlay
 }
 
 // Time per frame given to the full-resolution map while the user drags; when
@@ -48,6 +50,8 @@ const (
 )
 
 func (g *game) Update() error {
+	t0 := time.Now()
+	defer func() { g.br.Timing("update", time.Since(t0)) }()
 	// Pointer input: ebiten samples it once per tick; positions are in layout
 	// units, which are device pixels (see Layout).
 	x, y := ebiten.CursorPosition()
@@ -70,7 +74,9 @@ func (g *game) Update() error {
 	if g.pressed {
 		budget = busyBudget
 	}
-	g.br.Step(g.v, budget)
+	if g.br.Step(g.v, budget).Any() {
+		g.dirty = true
+	}
 	return nil
 }
 
@@ -118,9 +124,20 @@ func (g *game) Draw(screen *ebiten.Image) {
 		g.ready = true
 		g.br.Ready(g.v)
 	}
+	if !g.dirty {
+		return // the screen keeps its pixels (SetScreenClearedEveryFrame(false))
+	}
+	t0 := time.Now()
+	defer func() { g.br.Timing("draw", time.Since(t0)) }()
+	g.dirty = false
 	g.upload()
-	screen.Fill(view.Background0)
 	full, coarse := g.v.Maps()
+	// With software WebGL every full-screen pass counts: skip the background
+	// and the coarse preview when the finished full map covers the screen.
+	covered := full != nil && g.fullRows == full.NY && g.fullGen == full.Gen && full.NX == g.v.T.W && full.NY == g.v.T.H
+	if !covered {
+		screen.Fill(view.Background0)
+	}
 	t := g.v.T
 	draw := func(img *ebiten.Image, m *view.Map, rows int, filter ebiten.Filter) {
 		if img == nil || m == nil || rows == 0 {
@@ -135,57 +152,86 @@ func (g *game) Draw(screen *ebiten.Image) {
 		op.Filter = filter
 		screen.DrawImage(sub, &op)
 	}
-	draw(g.coarse, coarse, g.coarseRows, ebiten.FilterLinear)
-	draw(g.full, full, g.fullRows, ebiten.FilterNearest)
-	for _, p := range g.v.Scene() {
-		drawPrim(screen, &p)
+	if !covered {
+		draw(g.coarse, coarse, g.coarseRows, ebiten.FilterLinear)
 	}
+	draw(g.full, full, g.fullRows, ebiten.FilterNearest)
+	g.ov.draw(screen, g.v.Scene())
 }
 
 var (
-	path     vector.Path
-	vs       []ebiten.Vertex
-	is       []uint16
 	white    = ebiten.NewImage(3, 3)
 	whiteSub = white.SubImage(image.Rect(1, 1, 2, 2)).(*ebiten.Image)
 )
 
 func init() { white.Fill(color.White) }
 
-// drawPrim draws one overlay primitive. Paths become triangles with vector's
-// tessellation, drawn from a white texel scaled by the colour (the approach of
-// ebiten's own vector helpers).
-func drawPrim(dst *ebiten.Image, p *view.Prim) {
-	var c color.Color = p.Col
-	switch p.Kind {
-	case view.Polyline, view.Polygon:
-		path = vector.Path{}
-		for i, q := range p.Pts {
-			if i == 0 {
-				path.MoveTo(q.X, q.Y)
-			} else {
-				path.LineTo(q.X, q.Y)
+// overlay batches the overlay primitives into as few DrawTriangles calls as
+// the 16-bit indices allow: with software WebGL every anti-aliased draw call
+// costs a pass over an offscreen buffer, so one call per frame instead of one
+// per primitive is what keeps dragging fluid.
+type overlay struct {
+	path vector.Path
+	vs   []ebiten.Vertex
+	is   []uint16
+}
+
+func (o *overlay) draw(dst *ebiten.Image, prims []view.Prim) {
+	o.vs, o.is = o.vs[:0], o.is[:0]
+	for i := range prims {
+		p := &prims[i]
+		o.path = vector.Path{}
+		switch p.Kind {
+		case view.Polyline, view.Polygon:
+			for i, q := range p.Pts {
+				if i == 0 {
+					o.path.MoveTo(q.X, q.Y)
+				} else {
+					o.path.LineTo(q.X, q.Y)
+				}
 			}
+		case view.Disk, view.Ring:
+			o.path.Arc(p.Pts[0].X, p.Pts[0].Y, p.R, 0, 2*math.Pi, vector.Clockwise)
 		}
-		op := &ebiten.DrawTrianglesOptions{AntiAlias: true, ColorScaleMode: ebiten.ColorScaleModePremultipliedAlpha}
-		if p.Kind == view.Polygon {
-			path.Close()
-			vs, is = path.AppendVerticesAndIndicesForFilling(vs[:0], is[:0])
-			op.FillRule = ebiten.FillRuleNonZero
+		n0 := len(o.vs)
+		var vs []ebiten.Vertex
+		var is []uint16
+		switch p.Kind {
+		case view.Polygon, view.Disk:
+			o.path.Close()
+			vs, is = o.path.AppendVerticesAndIndicesForFilling(o.vs[n0:], nil)
+		default:
+			if p.Kind == view.Ring {
+				o.path.Close()
+			}
+			vs, is = o.path.AppendVerticesAndIndicesForStroke(o.vs[n0:], nil, &vector.StrokeOptions{Width: p.Width, LineJoin: vector.LineJoinRound})
+		}
+		if n0+len(vs) > math.MaxUint16 { // flush and start a new batch
+			o.flush(dst)
+			n0 = 0
+			o.vs = append(o.vs[:0], vs...)
 		} else {
-			vs, is = path.AppendVerticesAndIndicesForStroke(vs[:0], is[:0], &vector.StrokeOptions{Width: p.Width, LineJoin: vector.LineJoinRound})
+			o.vs = append(o.vs[:n0], vs...)
 		}
-		r, g, b, a := c.RGBA()
-		for i := range vs {
-			vs[i].SrcX, vs[i].SrcY = 1, 1
-			vs[i].ColorR, vs[i].ColorG, vs[i].ColorB, vs[i].ColorA = float32(r)/0xffff, float32(g)/0xffff, float32(b)/0xffff, float32(a)/0xffff
+		r, g, b, a := p.Col.RGBA()
+		for k := n0; k < len(o.vs); k++ {
+			v := &o.vs[k]
+			v.SrcX, v.SrcY = 1, 1
+			v.ColorR, v.ColorG, v.ColorB, v.ColorA = float32(r)/0xffff, float32(g)/0xffff, float32(b)/0xffff, float32(a)/0xffff
 		}
-		dst.DrawTriangles(vs, is, whiteSub, op)
-	case view.Disk:
-		vector.DrawFilledCircle(dst, p.Pts[0].X, p.Pts[0].Y, p.R, c, true)
-	case view.Ring:
-		vector.StrokeCircle(dst, p.Pts[0].X, p.Pts[0].Y, p.R, p.Width, c, true)
+		for _, ix := range is {
+			o.is = append(o.is, ix+uint16(n0))
+		}
 	}
+	o.flush(dst)
+}
+
+func (o *overlay) flush(dst *ebiten.Image) {
+	if len(o.is) == 0 {
+		return
+	}
+	dst.DrawTriangles(o.vs, o.is, whiteSub, &ebiten.DrawTrianglesOptions{AntiAlias: true, ColorScaleMode: ebiten.ColorScaleModePremultipliedAlpha})
+	o.vs, o.is = o.vs[:0], o.is[:0]
 }
 
 // Layout follows ebiten's high-DPI example: the screen has one pixel per
@@ -193,7 +239,10 @@ func drawPrim(dst *ebiten.Image, p *view.Prim) {
 func (g *game) Layout(w, h int) (int, int) {
 	s := ebiten.Monitor().DeviceScaleFactor()
 	pw, ph := int(math.Ceil(float64(w)*s)), int(math.Ceil(float64(h)*s))
-	g.v.SetSize(pw, ph, s)
+	if pw != g.v.T.W || ph != g.v.T.H || s != g.v.DPR {
+		g.v.SetSize(pw, ph, s)
+		g.dirty = true
+	}
 	return pw, ph
 }
 
@@ -204,7 +253,7 @@ func main() {
 	g.br = bridge.New("webgl", nil)
 	g.br.Attach(g.v)
 	ebiten.SetTPS(ebiten.SyncWithFPS)
-	ebiten.SetScreenClearedEveryFrame(true)
+	ebiten.SetScreenClearedEveryFrame(false)
 	ebiten.SetWindowTitle("lensbook magnification map")
 	if err := ebiten.RunGame(g); err != nil {
 		if !errors.Is(err, ebiten.Termination) {

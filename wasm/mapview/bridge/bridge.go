@@ -53,6 +53,7 @@ type Bridge struct {
 
 	frames []float64 // performance.now() of frames whose Step recomputed the model
 	grips  map[string]any
+	timing map[string][]float64
 	stats  view.Stats
 	done   bool
 	perf   js.Value
@@ -141,7 +142,7 @@ func (b *Bridge) Step(v *view.View, budget time.Duration) view.Changed {
 	line, handle, ok := v.Grips()
 	b.mu.Lock()
 	b.grips = map[string]any{"line": []any{line[0], line[1]}, "handle": []any{handle[0], handle[1]}, "visible": ok, "dpr": v.DPR,
-		"u0": v.Model.U0, "t0": v.Model.T0, "alpha": v.Model.Alpha}
+		"u0": v.Model.U0, "t0": v.Model.T0, "alpha": v.Model.Alpha, "scale": v.T.Scale}
 	b.stats, b.done = v.Stats, v.MapDone()
 	b.mu.Unlock()
 	if ch.Model {
@@ -154,6 +155,21 @@ func (b *Bridge) Step(v *view.View, budget time.Duration) view.Changed {
 		b.PostState(v)
 	}
 	return ch
+}
+
+// Timing records the duration of one piece of frame work under name (for the
+// tests: lensMapView.stats().timing[name] holds the last 256 in ms).
+func (b *Bridge) Timing(name string, d time.Duration) {
+	b.mu.Lock()
+	defer b.mu.Unlock()
+	if b.timing == nil {
+		b.timing = map[string][]float64{}
+	}
+	ts := append(b.timing[name], float64(d.Microseconds())/1000)
+	if len(ts) > 256 {
+		ts = ts[len(ts)-256:]
+	}
+	b.timing[name] = ts
 }
 
 // Post sends a message to the host page.
@@ -220,8 +236,16 @@ func (b *Bridge) statsJS() any {
 		fr[i] = f
 	}
 	b.mu.Unlock()
+	tm := map[string]any{}
+	for k, ts := range b.timing {
+		a := make([]any, len(ts))
+		for i, x := range ts {
+			a[i] = x
+		}
+		tm[k] = a
+	}
 	return js.ValueOf(map[string]any{"mode": b.Mode, "modelFrames": fr, "posted": b.posted, "grips": b.grips,
-		"map": statsMap(b.stats), "mapDone": b.done})
+		"map": statsMap(b.stats), "mapDone": b.done, "timing": tm})
 }
 
 // f64 copies xs into a new Float64Array through one reused byte buffer.

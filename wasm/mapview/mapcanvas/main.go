@@ -65,6 +65,8 @@ func main() {
 		// frame() runs one frame of work and returns the pixels to draw
 		// (a Uint8ClampedArray of 4·w·h bytes) or null when nothing changed.
 		"frame": func(a []js.Value) any {
+			t0 := time.Now()
+			defer func() { br.Timing("frame", time.Since(t0)) }()
 			budget := idleBudget
 			if pressed {
 				budget = busyBudget

@@ -9,7 +9,6 @@ package view
 import (
 	"fmt"
 	"math"
-	"math/cmplx"
 	"time"
 
 	"lensbook/lens"
@@ -37,15 +36,17 @@ func (c Changed) Any() bool { return c.Model || c.Map || c.Scene }
 
 // Stats are timings of the last pieces of work, for the page and the tests.
 type Stats struct {
-	CurveMs    float64 // last light curve + χ² (ms)
-	CoarseMs   float64 // last coarse map (ms)
-	FullMs     float64 // compute time of the last completed full map, summed over its chunks (ms)
-	FullWallMs float64 // wall time from request to completion of the last full map (ms)
-	FullN      int     // full maps completed
-	CoarseNX   int     // coarse map size
-	CoarseNY   int
-	FullNX     int // full map size
-	FullNY     int
+	CurveMs     float64 // last light curve + χ² (ms)
+	CoarseMs    float64 // last coarse map (ms)
+	FullMs      float64 // compute time of the last completed full map, summed over its chunks (ms)
+	FullWallMs  float64 // wall time from request to completion of the last full map (ms)
+	FullN       int     // full maps completed
+	CoarseExact int     // pixels of the coarse map solved exactly (the rest interpolated)
+	FullExact   int     // same for the last completed full map
+	CoarseNX    int     // coarse map size
+	CoarseNY    int
+	FullNX      int // full map size
+	FullNY      int
 }
 
 // GridN is the number of times at which the model light curve is sampled for plotting.
@@ -73,11 +74,12 @@ type View struct {
 	AGrid []float64 // magnification at TGrid
 	Stats Stats
 
-	curves []lens.Curve
-	coarse *Map
-	full   *Map
-	fullT0 time.Time // when the current full map was requested
-	fullMs float64   // compute time so far of the current full map
+	curves         []lens.Curve
+	coarse         *Map
+	full           *Map
+	coarseS, fullS *sampler
+	fullT0         time.Time // when the current full map was requested
+	fullMs         float64   // compute time so far of the current full map
 
 	drag *Drag
 	gen  int
@@ -305,11 +307,12 @@ func (v *View) Step(budget time.Duration) Changed {
 	if v.full != nil && v.full.Rows < v.full.NY {
 		for {
 			t := time.Now()
-			v.mapRows(v.full, 16)
+			v.mapRows(v.full, v.fullS, 2*blockPx)
 			v.fullMs += ms(time.Since(t))
 			ch.Map = true
 			if v.full.Rows == v.full.NY {
 				v.Stats.FullMs = v.fullMs
+				v.Stats.FullExact = v.fullS.Exact
 				v.Stats.FullWallMs = ms(time.Since(v.fullT0))
 				v.Stats.FullN++
 				break
@@ -345,16 +348,28 @@ func (v *View) startMaps() {
 	nx, ny := min(v.T.W, maxMapSide), min(v.T.H, maxMapSide)
 	cnx, cny := max(nx/coarseRatio, 1), max(ny/coarseRatio, 1)
 	v.gen++
+	t := time.Now()
 	v.coarse = reuseMap(v.coarse, r, cnx, cny)
 	v.coarse.Gen = v.gen
-	t := time.Now()
-	v.mapRows(v.coarse, cny)
+	var err error
+	if v.coarseS, err = newSampler(v.coarseS, v.coarse, v.Model.S, v.Model.Q, v.curves); err != nil {
+		v.Err = err
+		return
+	}
+	v.mapRows(v.coarse, v.coarseS, cny)
 	v.Stats.CoarseMs = ms(time.Since(t))
 	v.Stats.CoarseNX, v.Stats.CoarseNY = cnx, cny
+	v.Stats.CoarseExact = v.coarseS.Exact
+	t = time.Now()
 	v.full = reuseMap(v.full, r, nx, ny)
 	v.full.Gen = v.gen
+	if v.fullS, err = newSampler(v.fullS, v.full, v.Model.S, v.Model.Q, v.curves); err != nil {
+		v.Err = err
+		return
+	}
+	v.fullMs = ms(time.Since(t)) // the caustic mask is part of the full map's cost
 	v.Stats.FullNX, v.Stats.FullNY = nx, ny
-	v.fullT0, v.fullMs = time.Now(), 0
+	v.fullT0 = t
 }
 
 func reuseMap(m *Map, r lens.Rect, nx, ny int) *Map {
@@ -367,42 +382,17 @@ func reuseMap(m *Map, r lens.Rect, nx, ny int) *Map {
 	return m
 }
 
-// mapRows computes the next n rows of m with lens.MagMap on the band of the
-// rectangle those rows cover (pixel centres coincide with the full grid's).
-func (v *View) mapRows(m *Map, n int) {
+// mapRows computes the next n rows of m (n a multiple of blockPx) with its
+// adaptive sampler, then colours them.
+func (v *View) mapRows(m *Map, sp *sampler, n int) {
 	j0 := m.Rows
 	j1 := min(m.NY, j0+n)
-	dy := (m.Y1 - m.Y0) / float64(m.NY)
-	band := lens.Rect{X0: m.X0, X1: m.X1, Y0: m.Y0 + float64(j0)*dy, Y1: m.Y0 + float64(j1)*dy}
-	dst := m.A[j0*m.NX : j1*m.NX]
-	if err := fillMap(dst, v.Model.S, v.Model.Q, band, m.NX, j1-j0); err != nil {
-		for i := range dst {
-			dst[i] = float32(math.NaN())
-		}
-		v.Err = err
+	sp.rows(j0, j1)
+	if sp.err != nil {
+		v.Err = fmt.Errorf("map: %d pixels without a valid image set, first: %w", sp.Failed, sp.err)
 	}
 	m.Colour(v.Scale, j0, j1)
 	m.Rows = j1
-}
-
-// fillMap is lens.MagMap for a binary lens and the point-lens magnification of
-// Paczynski (1986) for q = 0.
-func fillMap(dst []float32, s, q float64, r lens.Rect, nx, ny int) error {
-	if q > 0 {
-		b, err := lens.NewBinary(s, q)
-		if err != nil {
-			return err
-		}
-		return lens.MagMap(dst, b, r, nx, ny)
-	}
-	dx, dy := (r.X1-r.X0)/float64(nx), (r.Y1-r.Y0)/float64(ny)
-	for j := range ny {
-		y := r.Y0 + (float64(j)+0.5)*dy
-		for i := range nx {
-			dst[j*nx+i] = float32(lens.PointMag(cmplx.Abs(complex(r.X0+(float64(i)+0.5)*dx, y))))
-		}
-	}
-	return nil
 }
 
 // updateCurve recomputes the plotted light curve and the χ².

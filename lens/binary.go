@@ -485,7 +485,7 @@ func (s *Solver) select_(dst []Image, zeta complex128, onCaustic bool) ([]Image,
 			e = complex(m1, 0)*h1*h1 + complex(m2, 0)*h2*h2
 			f = z - zeta - complex(real(g), -imag(g))
 			det = 1 - (real(e)*real(e) + imag(e)*imag(e))
-			res = cabs(f)
+			res = abs1(f)
 			sc, terms = resScale(z, zeta, h1, h2, m1, m2)
 			if res <= 4e-16*sc {
 				accepted = true
@@ -502,14 +502,14 @@ func (s *Solver) select_(dst []Image, zeta complex128, onCaustic bool) ([]Image,
 			ef := e * f
 			step := cdiv(complex(-real(f)+real(ef), -imag(f)-imag(ef)), complex(det, 0))
 			z += step
-			if cabs(step) <= 1e-15*cabs(z) {
+			if abs1(step) <= 1e-15*abs1(z) {
 				// Converged in position; judge by the residual there.
 				h1, h2 = cinv(z-z1), cinv(z-z2)
 				g = complex(m1, 0)*h1 + complex(m2, 0)*h2
 				e = complex(m1, 0)*h1*h1 + complex(m2, 0)*h2*h2
 				f = z - zeta - complex(real(g), -imag(g))
 				det = 1 - (real(e)*real(e) + imag(e)*imag(e))
-				res = cabs(f)
+				res = abs1(f)
 				sc, terms = resScale(z, zeta, h1, h2, m1, m2)
 				accepted = res <= 1e-12*sc
 				break
@@ -620,9 +620,12 @@ func (s *Solver) select_(dst []Image, zeta complex128, onCaustic bool) ([]Image,
 // root sitting on a lens (it exists when the source is exactly on that lens)
 // has a residual as large as the diverging term and an even larger rounding
 // scale, so acceptance also asks res ≤ 1e-8·terms.
+//
+// Sizes are L1 norms (within √2 of |·|, no square roots: this runs for every
+// root at every polishing step).
 func resScale(z, zeta, h1, h2 complex128, m1, m2 float64) (sc, terms float64) {
-	a1, a2 := cabs(h1), cabs(h2)
-	az := cabs(z)
-	terms = az + cabs(zeta) + m1*a1 + m2*a2
+	a1, a2 := abs1(h1), abs1(h2)
+	az := abs1(z)
+	terms = az + abs1(zeta) + m1*a1 + m2*a2
 	return terms + az*(m1*a1*a1+m2*a2*a2), terms
 }

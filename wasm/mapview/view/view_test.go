@@ -237,7 +237,9 @@ func TestStepUpdatesCurve(t *testing.T) {
 		t.Fatal(err)
 	}
 	for i := range want {
-		if v.AGrid[i] != want[i] {
+		// The view's evaluator keeps its warm start across calls, a fresh one
+		// does not: the polished roots may differ in the last bits.
+		if !scalar.EqualWithinRel(v.AGrid[i], want[i], 1e-12) {
 			t.Fatalf("curve[%d] = %v, lens.LightCurve %v", i, v.AGrid[i], want[i])
 		}
 	}

@@ -176,8 +176,9 @@ func seriesTerms(u, rho, c2, c4 float64) (a, t2, t4 float64) {
 // LimbDiskMag is the magnification of a disk of radius rho at distance u from a
 // point lens with linear limb darkening I(μ)/I(1) = 1 − ld(1 − μ), ld ∈ [0, 1].
 // It uses the flux-normalised Γ = GammaFromLD(ld) and the exact decomposition of
-// the Γ-law disk into uniform disks (integration by parts in the radius;
-// derived in the project's reference notes):
+// the Γ-law disk into uniform disks (derived here by integrating the intensity
+// profile by parts in the radius: each thin annulus is the difference of two
+// uniform disks, weighted by −dI/dr):
 //
 //	A_LD(u, ρ) = (1−Γ) A_U(u, ρ) + (3Γ/2) ∫₀¹ (1−μ²) A_U(u, ρ√(1−μ²)) dμ,
 //

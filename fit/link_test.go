@@ -194,6 +194,7 @@ func BenchmarkLinkEncode10k(b *testing.B) {
 	nb, doc, _ := bench10k(b)
 	b.SetBytes(int64(len(doc)))
 	opts := &LinkOptions{FullMax: LinkMax}
+	c0 := processCPU()
 	for b.Loop() {
 		s, _, err := EncodeLink(nb, opts)
 		if err != nil || !strings.HasPrefix(s, LinkPrefixFull) {
@@ -201,14 +202,17 @@ func BenchmarkLinkEncode10k(b *testing.B) {
 		}
 		benchSink = s
 	}
+	reportCPU(b, c0)
 }
 
 func BenchmarkLinkEncode10kBaseline(b *testing.B) {
 	_, doc, _ := bench10k(b)
 	b.SetBytes(int64(len(doc)))
+	c0 := processCPU()
 	for b.Loop() {
 		benchSink = deflateBase64(doc)
 	}
+	reportCPU(b, c0)
 }
 
 func BenchmarkLinkDecode10k(b *testing.B) {
@@ -216,6 +220,7 @@ func BenchmarkLinkDecode10k(b *testing.B) {
 	s, _, _ := EncodeLink(nb, &LinkOptions{FullMax: LinkMax})
 	b.SetBytes(int64(len(doc)))
 	b.ReportMetric(float64(len(s)), "link-chars")
+	c0 := processCPU()
 	for b.Loop() {
 		got, _, err := DecodeLink(s)
 		if err != nil {
@@ -223,6 +228,7 @@ func BenchmarkLinkDecode10k(b *testing.B) {
 		}
 		benchSink = got
 	}
+	reportCPU(b, c0)
 }
 
 func BenchmarkLinkDecode10kBaseline(b *testing.B) {
@@ -230,6 +236,7 @@ func BenchmarkLinkDecode10kBaseline(b *testing.B) {
 	raw, _ := json.Marshal(bare)
 	s := deflateBase64(raw)
 	b.SetBytes(int64(len(doc)))
+	c0 := processCPU()
 	for b.Loop() {
 		z, _ := base64.RawURLEncoding.DecodeString(s)
 		r, _ := io.ReadAll(flate.NewReader(bytes.NewReader(z)))
@@ -239,6 +246,7 @@ func BenchmarkLinkDecode10kBaseline(b *testing.B) {
 		}
 		benchSink = v
 	}
+	reportCPU(b, c0)
 }
 
 // BenchmarkLinkEncode10kDefault is the button press on a 10,000-point
@@ -246,6 +254,7 @@ func BenchmarkLinkDecode10kBaseline(b *testing.B) {
 func BenchmarkLinkEncode10kDefault(b *testing.B) {
 	nb, doc, _ := bench10k(b)
 	b.SetBytes(int64(len(doc)))
+	c0 := processCPU()
 	for b.Loop() {
 		s, _, err := EncodeLink(nb, nil)
 		if err != nil || !strings.HasPrefix(s, LinkPrefixModel) {
@@ -253,4 +262,5 @@ func BenchmarkLinkEncode10kDefault(b *testing.B) {
 		}
 		benchSink = s
 	}
+	reportCPU(b, c0)
 }

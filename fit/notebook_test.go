@@ -437,22 +437,27 @@ func bench10k(b *testing.B) (*Notebook, []byte, bareArrays) {
 func BenchmarkNotebookEncode10k(b *testing.B) {
 	nb, doc, _ := bench10k(b)
 	b.SetBytes(int64(len(doc)))
+	c0 := processCPU()
 	for b.Loop() {
 		benchSink, _ = EncodeNotebook(nb)
 	}
+	reportCPU(b, c0)
 }
 
 func BenchmarkNotebookEncode10kBaseline(b *testing.B) {
 	_, doc, bare := bench10k(b)
 	b.SetBytes(int64(len(doc)))
+	c0 := processCPU()
 	for b.Loop() {
 		benchSink, _ = json.Marshal(bare)
 	}
+	reportCPU(b, c0)
 }
 
 func BenchmarkNotebookDecode10k(b *testing.B) {
 	_, doc, _ := bench10k(b)
 	b.SetBytes(int64(len(doc)))
+	c0 := processCPU()
 	for b.Loop() {
 		nb, err := DecodeNotebook(doc)
 		if err != nil {
@@ -460,12 +465,14 @@ func BenchmarkNotebookDecode10k(b *testing.B) {
 		}
 		benchSink = nb
 	}
+	reportCPU(b, c0)
 }
 
 func BenchmarkNotebookDecode10kBaseline(b *testing.B) {
 	_, doc, bare := bench10k(b)
 	raw, _ := json.Marshal(bare)
 	b.SetBytes(int64(len(doc)))
+	c0 := processCPU()
 	for b.Loop() {
 		var v bareArrays
 		if err := json.Unmarshal(raw, &v); err != nil {
@@ -473,6 +480,7 @@ func BenchmarkNotebookDecode10kBaseline(b *testing.B) {
 		}
 		benchSink = v
 	}
+	reportCPU(b, c0)
 }
 
 func TestStepTypedHelpers(t *testing.T) {

@@ -500,18 +500,21 @@ func BenchmarkParse200k(b *testing.B) {
 	data := benchFile(200_000)
 	b.SetBytes(int64(len(data)))
 	b.ReportAllocs()
+	c0 := processCPU()
 	for b.Loop() {
 		d, err := Parse("bench", data, magOpts)
 		if err != nil || d.Len() != 200_000 {
 			b.Fatal(err)
 		}
 	}
+	reportCPU(b, c0)
 }
 
 func BenchmarkParse200kBaseline(b *testing.B) {
 	data := benchFile(200_000)
 	b.SetBytes(int64(len(data)))
 	b.ReportAllocs()
+	c0 := processCPU()
 	for b.Loop() {
 		s := string(data)
 		var tt, m, e []float64
@@ -529,6 +532,7 @@ func BenchmarkParse200kBaseline(b *testing.B) {
 			b.Fatal(len(tt))
 		}
 	}
+	reportCPU(b, c0)
 }
 
 // TestParseFingerprintStable pins the fingerprint of a parsed magnitude file.

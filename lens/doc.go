@@ -18,6 +18,16 @@
 // τ = (t − t0)/tE and c the reference point (centre of mass by default, see
 // Reference). Angles are radians inside Go.
 //
+// Annual parallax (Gould 2004, ApJ 606, 319, geocentric formalism): the
+// trajectory is shifted by δτ = πE·Δs and δβ = πE×Δs = πE,N·ΔsE − πE,E·ΔsN, where
+// Δs(t) is the Sun's position seen from Earth projected on the sky in (N, E)
+// components (AU) minus its value and velocity at the reference epoch t0,par (see
+// ParallaxOffsets and Model.At). Read on the sky, the model frame has x towards
+// north and y towards east, so α is measured from north through east, and u0 > 0
+// means the source passes the reference point on the side reached by turning the
+// direction of motion from north towards east. TestParallaxGeometry builds an
+// event from its physical geometry and pins this sign.
+//
 // Source size: ρ = θ*/θE. Limb darkening follows the linear law
 // I(μ)/I(1) = 1 − u(1 − μ); we store the coefficient u and convert to the
 // flux-normalised Γ = 2u/(3 − u) where a formula needs Γ (derived from ⟨μ⟩ = 2/3

@@ -428,3 +428,24 @@ func TestSourceOnCusp(t *testing.T) {
 		}
 	}
 }
+
+// TestMassSwapSymmetry: exchanging the two masses (q → 1/q) mirrors the lens
+// about the imaginary axis (the centre of mass stays at the origin), so
+// A(s, q, ζ) = A(s, 1/q, −ζ̄) (common practice: symmetry of the lens equation).
+func TestMassSwapSymmetry(t *testing.T) {
+	rng := rand.New(rand.NewPCG(7, 8))
+	for i := 0; i < 2000; i++ {
+		b := randomBinary(rng)
+		zeta := randomSource(rng, b)
+		a1, err1 := NewSolver(b).Mag(zeta)
+		a2, err2 := NewSolver(Binary{S: b.S, Q: 1 / b.Q}).Mag(complex(-real(zeta), imag(zeta)))
+		if err1 != nil || err2 != nil {
+			t.Fatalf("s=%v q=%v ζ=%v: %v %v", b.S, b.Q, zeta, err1, err2)
+		}
+		imgs, _ := NewSolver(b).Images(nil, zeta)
+		tol := math.Max(1e-9, 20*condition(b, zeta, imgs))
+		if math.Abs(a1-a2) > tol*a1 {
+			t.Fatalf("s=%v q=%v ζ=%v: %v vs swapped %v", b.S, b.Q, zeta, a1, a2)
+		}
+	}
+}

@@ -347,3 +347,29 @@ func BenchmarkCausticsEigenBaseline(b *testing.B) {
 		}
 	}
 }
+
+// TestCausticsMassSwap: the caustics of (s, 1/q) are those of (s, q) mirrored
+// about the imaginary axis, with the same cusp counts.
+func TestCausticsMassSwap(t *testing.T) {
+	for _, c := range []struct{ s, q float64 }{{0.6, 0.3}, {1, 1e-3}, {2, 0.1}, {0.05, 1e-7}} {
+		a := (Binary{S: c.s, Q: c.q}).Caustics(0)
+		b := (Binary{S: c.s, Q: 1 / c.q}).Caustics(0)
+		if len(a) != len(b) {
+			t.Fatalf("s=%v q=%v: %d vs %d curves", c.s, c.q, len(a), len(b))
+		}
+		var ca, cb []int
+		for i := range a {
+			ca, cb = append(ca, len(a[i].Cusps)), append(cb, len(b[i].Cusps))
+		}
+		sort.Ints(ca)
+		sort.Ints(cb)
+		if !equalInts(ca, cb) {
+			t.Errorf("s=%v q=%v: cusps %v vs %v", c.s, c.q, ca, cb)
+		}
+		xa0, xa1, ya0, ya1 := bbox(a, 0)
+		xb0, xb1, yb0, yb1 := bbox(b, 0)
+		if math.Abs(xa0+xb1) > 1e-9 || math.Abs(xa1+xb0) > 1e-9 || math.Abs(ya0-yb0) > 1e-9 || math.Abs(ya1-yb1) > 1e-9 {
+			t.Errorf("s=%v q=%v: boxes %v %v %v %v vs %v %v %v %v", c.s, c.q, xa0, xa1, ya0, ya1, xb0, xb1, yb0, yb1)
+		}
+	}
+}

@@ -67,7 +67,9 @@ const maxImageMag = 1e12
 // of Witt (1990, A&A 236, 311) that also satisfy the lens equation. The five
 // roots are found together by the Aberth–Ehrlich iteration (Aberth 1973, Math.
 // Comp. 27, 339; Ehrlich 1967, Comm. ACM 10, 107) started from the roots of the
-// previous call, which along a trajectory converges in two or three sweeps.
+// previous call — moved along their last displacement when the source keeps a
+// straight course — which along a trajectory converges in about two sweeps
+// (six from the physical cold-start guesses).
 // Each root is then polished by Newton's method on the lens equation itself (a
 // 2×2 real system, solved in closed form with det J), which restores the
 // digits the polynomial loses near planetary caustics. A root is an image when

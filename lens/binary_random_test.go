@@ -51,6 +51,7 @@ func TestSolverVsEigen(t *testing.T) {
 		worst, worstNear       float64
 		nearCaustic, illCond   int
 		refFailed, extremeFail int
+		errCount               int // ErrImages among extremeFail
 		worstFrac              float64 // largest difference / tolerance
 	)
 	for i := 0; i < n; i++ {
@@ -88,6 +89,7 @@ func TestSolverVsEigen(t *testing.T) {
 				// |det J| < 1e-8: within round-off of the caustic the image
 				// count is not defined in float64 (see Solver).
 				extremeFail++
+				errCount++
 				continue
 			}
 			t.Errorf("s=%v q=%v ζ=%v: %v (eigen: %d images)", b.S, b.Q, zeta, err, len(ref))
@@ -136,8 +138,8 @@ func TestSolverVsEigen(t *testing.T) {
 	}
 	t.Logf("%d configurations (%d within 1e-6 of a caustic); worst relative difference %.2g away from caustics, %.2g near; "+
 		"%d ill-conditioned points with tolerance > 1e-8 (largest difference/tolerance %.2g); "+
-		"%d where the reference found no valid set; %d with |μ| > 1e8 (count undefined in float64)",
-		n, nearCaustic, worst, worstNear, illCond, worstFrac, refFailed, extremeFail)
+		"%d where the reference found no valid set; %d with |μ| > 1e8 (count undefined in float64; %d of them ErrImages)",
+		n, nearCaustic, worst, worstNear, illCond, worstFrac, refFailed, extremeFail, errCount)
 	if refFailed > n/100 || extremeFail > n/200 {
 		t.Errorf("too many unverifiable points")
 	}

@@ -273,7 +273,7 @@ func Sniff(name string, data []byte) (*Preview, error) {
 // propose fills Proposed and Why from the header names and sample values.
 func (p *Preview) propose(t *table, samples [][]float64) {
 	o := &p.Proposed
-	o.Name = p.File
+	o.Name = clip2(cleanLabel(p.File), MaxNameLen-8)
 	// Columns: by name when the header says so, else the first three columns.
 	o.TimeCol = findCol(p.Names, "bjd", "hjd", "jd", "mjd", "time", "date", "t", "epoch")
 	o.ValueCol = findCol(p.Names, "mag", "magnitude", "flux", "f", "counts", "m")

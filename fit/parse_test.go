@@ -401,6 +401,14 @@ func TestParseLabelsForNotebook(t *testing.T) {
 	if _, err := EncodeNotebook(nb); err != nil {
 		t.Errorf("parsed dataset cannot be saved: %v", err)
 	}
+	// The proposal made from such a name is accepted as it stands.
+	p, err := Sniff("bad\x07name.dat", []byte(hdr.String()))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := Parse("bad\x07name.dat", []byte(hdr.String()), p.Proposed); err != nil {
+		t.Errorf("proposal refused: %v", err)
+	}
 }
 
 func TestParseNotes(t *testing.T) {
@@ -456,7 +464,7 @@ func FuzzParse(f *testing.F) {
 	f.Add([]byte("t,m,e\n1,2,3\n1,2,3,\n\"a\",1,2\n"))
 	f.Add([]byte("# %ECSV 1.0\n# ---\n# datatype:\n# - {name: a, datatype: float64}\n# - {name: b, datatype: float64}\n# - {name: c, datatype: float64}\na b c\n1 2 3\n"))
 	f.Fuzz(func(t *testing.T, data []byte) {
-		p, err := Sniff("fz", data)
+		p, err := Sniff("fz\x01<b>", data)
 		if err != nil {
 			return
 		}
@@ -466,7 +474,7 @@ func FuzzParse(f *testing.F) {
 			if o.TimeCol == 0 {
 				return
 			}
-			d, err := Parse("fz", data, o)
+			d, err := Parse("fz\x01<b>", data, o)
 			if d == nil {
 				if err == nil {
 					t.Fatal("nil dataset without error")

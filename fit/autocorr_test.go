@@ -24,12 +24,16 @@ func ar1(r *rand.Rand, phi float64, chains, n int) [][]float64 {
 
 func TestIntegratedTimeAR1(t *testing.T) {
 	r := rand.New(rand.NewPCG(42, 1))
-	for _, phi := range []float64{0, 0.5, 0.9, 0.99} {
+	phis, chains := []float64{0, 0.5, 0.9, 0.99}, 16
+	if testing.Short() {
+		phis, chains = []float64{0, 0.5, 0.9}, 8
+	}
+	for _, phi := range phis {
 		// Exact τ_int of AR(1): ρ(t) = φ^|t|, so τ = 1 + 2φ/(1−φ) = (1+φ)/(1−φ)
 		// (common practice; follows from the geometric series).
 		want := (1 + phi) / (1 - phi)
 		n := max(20000, int(2000*want))
-		e := IntegratedTime(ar1(r, phi, 16, n), 0)
+		e := IntegratedTime(ar1(r, phi, chains, n), 0)
 		// Tolerance: 4 of Sokal's standard errors plus the O(τ/n) bias of
 		// subtracting each chain's own mean.
 		tol := 4*e.RelErr*want + 2*want*want/float64(n)

@@ -270,11 +270,20 @@ func TestPosteriorCoverage(t *testing.T) {
 			t.Fatalf("LENSBOOK_COVERAGE=%q is not a positive count", v)
 		}
 	}
+	// LENSBOOK_COVERAGE_FROM=k runs realisations k … k+n−1, so that a long
+	// check can be split over processes and the logged hits added up.
+	from := 0
+	if v := os.Getenv("LENSBOOK_COVERAGE_FROM"); v != "" {
+		var err error
+		if from, err = strconv.Atoi(v); err != nil || from < 0 {
+			t.Fatalf("LENSBOOK_COVERAGE_FROM=%q is not a count", v)
+		}
+	}
 	spec := coverageEvent()
 	hits := map[string]int{}
 	var names []string
 	start := time.Now()
-	for r := range n {
+	for r := from; r < from+n; r++ {
 		ev, sol := refined(t, spec, uint64(1000+r))
 		res, err := fit.SamplePosterior(context.Background(), ev, []*fit.Solution{sol},
 			fit.PosteriorSettings{Ensemble: fit.EnsembleSettings{Steps: steps, TargetESS: target, Seed: uint64(r), ProgressEvery: 100, Concurrent: 2}}, nil)
@@ -287,14 +296,16 @@ func TestPosteriorCoverage(t *testing.T) {
 				names = append(names, p.Name)
 			}
 		}
+		inside := ""
 		for _, p := range m.Summary.Params {
 			truth := truthOf(spec.Truth.Params, p.Name)
 			if truth >= p.Lower && truth <= p.Upper {
 				hits[p.Name]++
+				inside += " " + p.Name
 			}
 		}
 		d := m.Chain.Diagnostics
-		t.Logf("realisation %d: %d points, %d steps, τ max %.0f, ESS min %.0f, converged %v (%v so far)", r, res.NData, m.Chain.Steps, slices.Max(d.Tau), slices.Min(d.ESS), d.Converged, time.Since(start).Round(time.Second))
+		t.Logf("realisation %d: %d points, %d steps, τ max %.0f, ESS min %.0f, converged %v (%v so far); truth inside for:%s", r, res.NData, m.Chain.Steps, slices.Max(d.Tau), slices.Min(d.ESS), d.Converged, time.Since(start).Round(time.Second), inside)
 	}
 	// Binomial(n, 0.683) per parameter; the realisations are independent, the
 	// parameters within one are not. Accept 3σ per parameter and for the total.

@@ -1,6 +1,7 @@
 package fit
 
 import (
+	"bytes"
 	"math"
 	"math/rand/v2"
 	"slices"
@@ -129,5 +130,35 @@ func TestDerivedBadInput(t *testing.T) {
 		if _, err := DeriveQuantities(c.in, c.set); err == nil || !strings.Contains(err.Error(), c.want) {
 			t.Errorf("%s: error %v, want one mentioning %q", c.name, err, c.want)
 		}
+	}
+}
+
+func TestPhysicalTableECSV(t *testing.T) {
+	n := 3
+	in := PhysicalInput{TE: slices.Repeat([]float64{30}, n), Rho: slices.Repeat([]float64{0.005}, n),
+		PiEN: slices.Repeat([]float64{0.1}, n), PiEE: slices.Repeat([]float64{0}, n)}
+	p, err := DeriveQuantities(in, PhysicalSettings{ThetaStar: 6, DS: 8})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var buf bytes.Buffer
+	if err := WriteECSV(&buf, PhysicalTable(testInfo(), p)); err != nil {
+		t.Fatal(err)
+	}
+	tab, err := ReadECSV(&buf)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var assumptions []string
+	for _, m := range tab.Meta {
+		if strings.HasPrefix(m.Key, "assumption_") {
+			assumptions = append(assumptions, m.Value)
+		}
+	}
+	if !slices.Equal(assumptions, p.Assumptions) {
+		t.Errorf("assumptions read back %q, want %q", assumptions, p.Assumptions)
+	}
+	if tab.Columns[0].String[1] != "thetaE" || !sameBits(tab.Columns[2].Float[1], p.Get("thetaE").Median) {
+		t.Errorf("table %+v", tab.Columns[:3])
 	}
 }

@@ -5,6 +5,7 @@ import (
 	"context"
 	"math"
 	"os"
+	"runtime"
 	"slices"
 	"strconv"
 	"strings"
@@ -259,6 +260,9 @@ func coverageEvent() *problems.Spec {
 //	LENSBOOK_COVERAGE=50 go test -run TestPosteriorCoverage -timeout 120m -v ./fit/
 func TestPosteriorCoverage(t *testing.T) {
 	n, steps, target := 4, 8000, 300.0
+	if testing.Short() && runtime.GOOS == "js" {
+		t.Skip("a posterior run of 1500 steps takes minutes under wasm; the native -short run covers it")
+	}
 	if testing.Short() {
 		// One realisation of 1500 steps (about 20τ, so not converged by the
 		// 50τ rule): a smoke test of the whole chain of steps, not a calibration.
@@ -321,4 +325,39 @@ func TestPosteriorCoverage(t *testing.T) {
 		}
 	}
 	t.Logf("overall coverage %d/%d = %.3f (expected 0.683) in %v", total, n*len(names), float64(total)/float64(n*len(names)), time.Since(start))
+}
+
+// TestPosteriorPhysical derives θE and μrel from the posterior of the
+// finite-source single-lens problem (ρ = 0.006, tE = 18 d) with θ* = 6 µas:
+// θE = θ*/ρ and μrel = θE/tE (references.md §10) hold for the medians to the
+// interpolation between order statistics.
+func TestPosteriorPhysical(t *testing.T) {
+	spec := problems.FiniteSourceSingle()
+	ev, sol := refined(t, spec, 1)
+	res, err := fit.SamplePosterior(context.Background(), ev, []*fit.Solution{sol},
+		fit.PosteriorSettings{Ensemble: fit.EnsembleSettings{Steps: 150, Seed: 2}}, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	m := res.Modes[0]
+	in, err := m.PhysicalInput()
+	if err != nil {
+		t.Fatal(err)
+	}
+	p, err := fit.DeriveQuantities(in, fit.PhysicalSettings{ThetaStar: 6})
+	if err != nil {
+		t.Fatal(err)
+	}
+	rho := m.Summary.Params[m.Samples.Index("rho")].Median
+	tE := m.Summary.Params[m.Samples.Index("tE")].Median
+	thE, mu := p.Get("thetaE").Median, p.Get("muRel").Median
+	if math.Abs(thE/(0.006/rho)-1) > 1e-3 || math.Abs(rho/0.006-1) > 0.2 {
+		t.Errorf("θE median %v mas, θ*/median ρ = %v (ρ = %v, truth 0.006)", thE, 0.006/rho, rho)
+	}
+	if math.Abs(mu/(thE/tE*365.25)-1) > 0.02 {
+		t.Errorf("μrel median %v, θE/tE = %v", mu, thE/tE*365.25)
+	}
+	if p.Get("M") != nil || !strings.Contains(strings.Join(p.Assumptions, " "), "no microlens parallax") {
+		t.Errorf("mass without parallax, or the assumption is missing: %q", p.Assumptions)
+	}
 }

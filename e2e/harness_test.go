@@ -270,7 +270,8 @@ func (p *page) waitJS(cond string, timeout time.Duration) {
 	ctx, cancel := context.WithTimeout(p.ctx, timeout)
 	defer cancel()
 	if _, err := chromedp.Run(ctx, chromedp.Poll[bool](cond, chromedp.WithPollingTimeout(timeout), chromedp.WithPollingInterval(50*time.Millisecond))); err != nil {
-		p.t.Fatalf("waiting for %s: %v (console errors: %v)", cond, err, p.consoleErrors())
+		notice, _ := chromedp.Run(p.ctx, chromedp.Evaluate[string](`(document.querySelector("#notice") || {}).textContent || ""`))
+		p.t.Fatalf("waiting for %s: %v (console errors: %v; notice: %q)", cond, err, p.consoleErrors(), notice)
 	}
 }
 

@@ -1,6 +1,6 @@
 // Worker pool: runs notebook steps in Go compute workers, never on the page
 // thread. Each job gets progress callbacks and can be cancelled; a worker that
-// does not acknowledge a cancel within CANCEL_GRACE_MS is terminated and
+// does not acknowledge a cancel within CANCEL_GRACE_MS (0.4 s) is terminated and
 // replaced, so Cancel always takes effect within a second.
 //
 // Long steps (fits, grid chunks, sampling) run on `size` compute workers;
@@ -9,7 +9,7 @@
 
 import { PROTOCOL_VERSION, type Progress, type Reply, type Request } from "./protocol";
 
-const CANCEL_GRACE_MS = 600;
+const CANCEL_GRACE_MS = 400;
 
 /** Steps that take milliseconds: they run on the light worker. */
 const LIGHT_STEPS = new Set(["info", "notebook-new", "notebook-decode", "notebook-encode", "describe", "link-encode", "link-decode", "attach", "preview", "parse", "edit", "mask", "grid-merge", "curves", "export"]);
@@ -55,7 +55,14 @@ export class EnginePool {
 
   constructor(readonly size: number) {
     this.light.push(this.spawn());
-    for (let i = 0; i < size; i++) this.slots.push(this.spawn());
+    // Compute workers start once the light one runs: compiling several wasm
+    // instances at once would delay the first one, and with it the page's
+    // first interactive moment, on a machine with few cores.
+    const startCompute = () => {
+      for (let i = 0; i < size; i++) this.slots.push(this.spawn());
+      for (const f of this.queue.splice(0)) f(); // each takes a worker or queues again
+    };
+    this.light[0].ready.then(startCompute, startCompute);
   }
 
   static defaultSize(): number {

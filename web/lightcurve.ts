@@ -38,6 +38,9 @@ export class LightCurvePlot {
   private input?: PlotInput;
   mode: DragMode = "zoom";
   onBox?: (mode: DragMode, t0: number, t1: number, y0: number, y1: number) => void;
+  /** Map view: the time (HJD′) under the cursor, or undefined when it leaves the plot. */
+  onCursor?: (t: number | undefined) => void;
+  private overlay?: PlotModel; // map view's dragged model, drawn over the plot without re-rendering it
 
   constructor(
     private mainEl: HTMLElement,
@@ -85,6 +88,39 @@ export class LightCurvePlot {
     if (!r) return;
     const d = (r[1] - r[0]) * fraction;
     this.setX(r[0] + d, r[1] + d);
+  }
+
+  /** Draws m (the map view's model) over the light curve, or clears it; redraws without rebuilding the plot. */
+  setOverlay(m: PlotModel | undefined): void {
+    this.overlay = m;
+    this.main?.redraw(false, false);
+  }
+
+  private drawOverlay(u: uPlot): void {
+    const m = this.overlay;
+    if (!m || m.t.length === 0) return;
+    const ctx = u.ctx;
+    ctx.save();
+    ctx.beginPath();
+    ctx.rect(u.bbox.left, u.bbox.top, u.bbox.width, u.bbox.height);
+    ctx.clip();
+    ctx.strokeStyle = m.colour;
+    ctx.lineWidth = 2 * devicePixelRatio;
+    ctx.beginPath();
+    let pen = false;
+    for (let i = 0; i < m.t.length; i++) {
+      if (!Number.isFinite(m.y[i])) {
+        pen = false;
+        continue;
+      }
+      const x = u.valToPos(m.t[i], "x", true);
+      const y = u.valToPos(m.y[i], "y", true);
+      if (pen) ctx.lineTo(x, y);
+      else ctx.moveTo(x, y);
+      pen = true;
+    }
+    ctx.stroke();
+    ctx.restore();
   }
 
   render(input: PlotInput): void {
@@ -169,9 +205,10 @@ export class LightCurvePlot {
           { label: input.yLabel, stroke: "#3b4652", grid: { stroke: "#e6e2d8" }, size: 60 },
         ],
         cursor: { sync: { key: sync.key, setSeries: false }, drag: { x: true, y: true, uni: 30 } },
-        legend: { live: true },
+        legend: { live: false },
         hooks: {
-          draw: [errorBars],
+          draw: [errorBars, (u) => this.drawOverlay(u)],
+          setCursor: [(u) => this.onCursor?.(u.cursor.left != null && u.cursor.left >= 0 ? u.posToVal(u.cursor.left, "x") : undefined)],
           setSelect: [
             (u) => {
               if (this.mode === "zoom" || u.select.width < 2) return;
@@ -218,7 +255,7 @@ export class LightCurvePlot {
           scales: { x: { time: false }, y: { dir: -1 } },
           axes: [
             { stroke: "#3b4652", grid: { stroke: "#e6e2d8" } },
-            { label: "data − model (mag)", stroke: "#3b4652", grid: { stroke: "#e6e2d8" }, size: 60 },
+            { label: "residual (mag)", stroke: "#3b4652", grid: { stroke: "#e6e2d8" }, size: 60 },
           ],
           legend: { show: false },
           cursor: { sync: { key: sync.key }, drag: { x: false, y: false } },

@@ -178,6 +178,7 @@ function notify(): void {
 
 let notebookId = persist.newId();
 let autosaveTimer: number | undefined;
+let autosavedAt = 0; // Date.now() of the last successful autosave
 
 function scheduleAutosave(): void {
   if (!doc || datasets().length === 0) return;
@@ -198,6 +199,7 @@ async function autosave(): Promise<void> {
       points: d.datasets.reduce((n, x) => n + x.points, 0),
       doc: JSON.stringify(d),
     });
+    autosavedAt = Date.now();
     st.textContent = "autosaved " + new Date().toLocaleTimeString();
     st.className = "engine";
   } catch (e) {
@@ -380,8 +382,15 @@ async function runStep(
   }
 }
 
+/** When Cancel was last pressed and when the step's workers had all stopped (performance.now() ms). */
+const lastCancel = { clicked: NaN, stopped: NaN };
+
 function cancelStep(id: StepId): void {
-  for (const j of running.get(id) ?? []) j.cancel();
+  const jobs = running.get(id) ?? [];
+  lastCancel.clicked = performance.now();
+  lastCancel.stopped = NaN;
+  for (const j of jobs) j.cancel();
+  void Promise.all(jobs.map((j) => j.done.catch(() => undefined))).then(() => (lastCancel.stopped = performance.now()));
 }
 
 function oneJob(stepName: string, settings: unknown) {
@@ -623,7 +632,11 @@ function needData(): void {
 async function runSingle(): Promise<void> {
   await runStep("single", async (track, progress) => {
     needData();
-    return oneJob("single", { notebook: doc, settings: { noFinite: !!steps.single.settings.noFinite } })(track, progress);
+    const r = await oneJob("single", { notebook: doc, settings: { noFinite: !!steps.single.settings.noFinite } })(track, progress);
+    // the per-point residuals are redrawn from the model; keeping them would
+    // double the size of saved notebooks and links
+    if (r.result) r.result = { ...(r.result as object), residuals: undefined };
+    return r;
   });
 }
 
@@ -654,7 +667,7 @@ async function runGrid(): Promise<void> {
       if (p.result && !Array.isArray(p.result)) got.push(p.result);
       else if (done[k].length) lost.push({ start: start.params, settings, chunk: k, chunks, nodes: done[k] });
     });
-    if (got.length === 0 && lost.length === 0) throw new Error("Cancelled before any grid node finished.");
+    if (got.length === 0 && lost.length === 0) return { result: undefined, cancelled: true };
     const merged = await call<GridOut>("grid-merge", { parts: got, lost, keep: Number(steps.refine.settings.keep) || 6 });
     return { result: merged, cancelled };
   });
@@ -1128,7 +1141,7 @@ function lightCurveExport(): SVGSVGElement | undefined {
 function zoomToAnomaly(): void {
   const a = single()?.anomaly;
   if (a?.found) {
-    const pad = Math.max((a.t2 - a.t1) * 0.5, 0.2);
+    const pad = Math.max((a.t2 - a.t1) * 1.5, 1);
     lc.setX(a.t1 - pad - TIME_OFFSET, a.t2 + pad - TIME_OFFSET);
   } else alertBox("Run the single-lens fit first: the anomaly is where the data leave the single-lens model.");
 }
@@ -1170,8 +1183,16 @@ export interface LensbookHook {
   engine: EnginePool;
   /** Step states, for tests. */
   steps(): Steps;
+  /** Date.now() of the last successful autosave (0: none yet), for tests. */
+  autosavedAt(): number;
+  /** Timing of the last Cancel (performance.now() ms), for tests. */
+  lastCancel: { clicked: number; stopped: number };
   /** The document as “Save notebook” would write it (before the engine re-encodes it). */
   document(): NotebookDoc | undefined;
+  /** Map view: draws its dragged model (full JD, magnitudes on the plot's scale) over the light curve; undefined clears it. */
+  showMapModel(m: { label: string; t: ArrayLike<number>; y: ArrayLike<number> } | undefined): void;
+  /** Map view: calls f with the time (full JD) under the light-curve cursor, or undefined. */
+  onCursor(f: (t: number | undefined) => void): () => void;
 }
 
 function hookDatasets(): HookDataset[] {
@@ -1221,7 +1242,14 @@ const hook: LensbookHook = {
   mapPanel: $("#map-panel"),
   engine: pool,
   steps: () => steps,
+  autosavedAt: () => autosavedAt,
+  lastCancel,
   document: () => fullDoc(),
+  showMapModel: (m) => lc.setOverlay(m && { label: m.label, colour: "#c2185b", dash: false, t: Array.from(m.t, (t) => t - TIME_OFFSET), y: Array.from(m.y) }),
+  onCursor: (f) => {
+    lc.onCursor = (t) => f(t === undefined ? undefined : t + TIME_OFFSET);
+    return () => (lc.onCursor = undefined);
+  },
 };
 (window as unknown as { lensbook: LensbookHook }).lensbook = hook;
 

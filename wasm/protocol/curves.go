@@ -103,10 +103,14 @@ func stepCurves(_ context.Context, raw json.RawMessage, _ func(Progress)) (any, 
 	if in.Selected >= 0 && in.Selected < len(in.Solutions) {
 		sel = in.Solutions[in.Selected]
 	}
-	out := &Curves{YLabel: "magnitude (each dataset on its own zero point)"}
+	out := &Curves{YLabel: "magnitude (own zero points)"}
 	if sel != nil {
 		ref := ev.Datasets[0]
-		out.YLabel = "magnitude on the " + ref.Name + " scale"
+		name := []rune(ref.Name)
+		if len(name) > 16 {
+			name = append(name[:15], '…')
+		}
+		out.YLabel = "mag (scale of " + string(name) + ")"
 		if ref.Band != "" {
 			out.YLabel = ref.Band + " " + out.YLabel
 		}

@@ -335,12 +335,10 @@ func stepGrid(ctx context.Context, raw json.RawMessage, report func(Progress)) (
 		done++
 		finished = append(finished, nd)
 		p := Progress{Done: done, Total: total}
-		// Send the finished nodes every few nodes so a terminated worker still
-		// leaves its work behind.
-		if done%4 == 0 || done == total {
-			p.Partial, _ = json.Marshal(finished)
-			finished = finished[:0]
-		}
+		// Send each finished node so a terminated worker still leaves its
+		// work behind (a few hundred bytes per node).
+		p.Partial, _ = json.Marshal(finished)
+		finished = finished[:0]
 		report(p)
 	})
 	if err != nil {

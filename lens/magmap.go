@@ -22,7 +22,10 @@ type Rect struct{ X0, Y0, X1, Y1 float64 }
 // ErrImages; not seen in the tests) is set to 0 and reported in the returned
 // error with the count of such pixels; the rest of the map is still filled.
 func MagMap(dst []float32, b Binary, r Rect, nx, ny int) error {
-	if nx < 0 || ny < 0 || len(dst) != nx*ny {
+	if nx < 0 || ny < 0 {
+		return fmt.Errorf("lens: map size %d×%d is negative", nx, ny)
+	}
+	if len(dst) != nx*ny {
 		panic("lens: MagMap dst length differs from nx*ny")
 	}
 	if err := b.validate(); err != nil {

@@ -40,6 +40,9 @@ func TestMagMapErrors(t *testing.T) {
 	if err := MagMap(make([]float32, 4), b, Rect{0, math.NaN(), 1, 1}, 2, 2); err == nil {
 		t.Error("NaN rectangle accepted")
 	}
+	if err := MagMap(make([]float32, 4), b, Rect{0, 0, 1, 1}, -2, -2); err == nil {
+		t.Error("negative size accepted")
+	}
 	defer func() {
 		if recover() == nil {
 			t.Error("wrong dst length did not panic")

@@ -46,6 +46,7 @@ export interface MapData {
   errScale?: number;
   errFloor?: number;
   ld?: number;
+  zeroPoint?: number;
 }
 
 /** The state the frame reports after every model change. */
@@ -55,6 +56,8 @@ export interface MapState {
   ndata: number;
   t: Float64Array; // plot times (full JD)
   a: Float64Array; // model magnification at t
+  y?: Float64Array; // model magnitude at t on the first dataset's scale (its fs, fb and zero point)
+  fits?: { name: string; chi2: number; fs: number; fb: number; n: number }[];
   error?: string;
   seq: number;
   stats: Record<string, number>;
@@ -229,6 +232,7 @@ export class MapView {
         errScale: d.errScale ?? 0,
         errFloor: d.errFloor ?? 0,
         ld: d.ld ?? 0,
+        zeroPoint: d.zeroPoint ?? 0,
       })),
       tmin: tr?.[0] ?? 0,
       tmax: tr?.[1] ?? 0,
@@ -461,19 +465,37 @@ async function runFrame(): Promise<void> {
 // ---------- wiring ----------
 
 interface LensbookHook {
-  current(): { datasets: { name: string; t: number[]; flux: number[]; err: number[]; masked: boolean[] | null; err_scale: number; err_floor: number; ld: number }[]; selected?: Record<string, number> };
+  current(): {
+    datasets: { name: string; t: number[]; flux: number[]; err: number[]; masked: boolean[] | null; err_scale: number; err_floor: number; ld: number }[];
+    selected?: Record<string, number>;
+    notebook?: { datasets?: { zero_point?: number }[] };
+  };
   useAsStart(p: Record<string, number>): Promise<void>;
   onChange(f: () => void): () => void;
   mapPanel: HTMLElement;
-  showMapModel?(s: MapState): void;
+  /** Draws the map's model (full JD, magnitudes on the plot's scale) over the light curve; undefined clears it. */
+  showMapModel?(m: { label: string; t: ArrayLike<number>; y: ArrayLike<number>; chi2: number | null } | undefined): void;
+  /** Calls f with the time (full JD) under the light-curve cursor, or undefined; returns an unsubscribe function. */
   onCursor?(f: (t: number | undefined) => void): () => void;
 }
 
 /** Mounts the panel on the notebook page through its window.lensbook hook. */
 export function mountOnNotebook(hook: LensbookHook, opts: { mode?: MapMode } = {}): MapView {
   const host: MapHost = {
-    data: () =>
-      hook.current().datasets.map((d) => ({ name: d.name, t: d.t, flux: d.flux, err: d.err, masked: d.masked, errScale: d.err_scale, errFloor: d.err_floor, ld: d.ld })),
+    data: () => {
+      const c = hook.current();
+      return c.datasets.map((d, k) => ({
+        name: d.name,
+        t: d.t,
+        flux: d.flux,
+        err: d.err,
+        masked: d.masked,
+        errScale: d.err_scale,
+        errFloor: d.err_floor,
+        ld: d.ld,
+        zeroPoint: c.notebook?.datasets?.[k]?.zero_point ?? 0,
+      }));
+    },
     model: () => {
       const p = hook.current().selected;
       if (!p) return undefined;
@@ -481,7 +503,9 @@ export function mountOnNotebook(hook: LensbookHook, opts: { mode?: MapMode } = {
     },
     useAsStart: (m) => hook.useAsStart({ t0: m.t0, u0: m.u0, tE: m.tE, rho: m.rho, s: m.s, q: m.q, alpha: m.alpha }),
     onChange: (f) => hook.onChange(f),
-    showModel: (s) => hook.showMapModel?.(s),
+    showModel: (s) => {
+      if (s.y) hook.showMapModel?.({ label: `map model (χ² ${s.chi2 === null ? "–" : s.chi2.toFixed(1)})`, t: s.t, y: s.y, chi2: s.chi2 });
+    },
   };
   const mv = new MapView(hook.mapPanel, host, opts);
   hook.onCursor?.((t) => mv.setCursorTime(t));

@@ -9,7 +9,7 @@
 //
 // Protocol (version 1), host → frame with postMessage:
 //
-//	{type:"init", v:1, model, data:[{name, t, flux, err: Float64Array}], tmin, tmax}
+//	{type:"init", v:1, model, data:[{name, t, flux, err: Float64Array, masked, errScale, errFloor, ld, zeroPoint}], tmin, tmax}
 //	{type:"model", model}           replace the model (e.g. after a fit)
 //	{type:"lens", s, q, rho}        slider values
 //	{type:"cursor", t}              time under the cursor in the light curve (full JD; null = none)
@@ -19,7 +19,9 @@
 // frame → host (window.parent.postMessage):
 //
 //	{type:"ready", v:1, mode:"webgl"|"canvas", ramp:[r,g,b,…]×256, lo, hi, ticks}
-//	{type:"state", v:1, model, chi2, error, t, a: Float64Array, stats}
+//	{type:"state", v:1, model, chi2, error, t, a, y: Float64Array, fits, stats}
+//	                                t: plot times (full JD), a: magnification, y: magnitude on the
+//	                                first dataset's scale (its fs, fb, zero point), fits: per dataset χ², fs, fb
 //	{type:"error", v:1, message}
 //
 // model = {t0, u0, tE, rho, s, q, alpha (radians), piEN, piEE, dsdt, dalphadt, ld, ref}.
@@ -53,6 +55,7 @@ type Bridge struct {
 
 	frames []float64 // performance.now() of frames whose Step recomputed the model
 	grips  map[string]any
+	mags   []float64
 	timing map[string][]float64
 	stats  view.Stats
 	done   bool
@@ -211,6 +214,15 @@ func (b *Bridge) PostState(v *view.View) {
 	}
 	if v.Err != nil {
 		msg["error"] = v.Err.Error()
+	}
+	if !math.IsNaN(v.Chi2) {
+		b.mags = b.data.Mags(b.mags, v.AGrid)
+		msg["y"] = b.f64(b.mags)
+		var fits []any
+		for _, f := range b.data.Fits() {
+			fits = append(fits, map[string]any{"name": f.Name, "chi2": f.Chi2, "fs": f.Fs, "fb": f.Fb, "n": f.N})
+		}
+		msg["fits"] = fits
 	}
 	b.Post(msg)
 }
@@ -374,7 +386,7 @@ func (b *Bridge) setData(d js.Value) {
 	for i := range arr.Length() {
 		e := arr.Index(i)
 		s := view.Series{Name: e.Get("name").String(), T: b.floats(e.Get("t")), Flux: b.floats(e.Get("flux")), Err: b.floats(e.Get("err")),
-			ErrScale: num(e, "errScale", 0), ErrFloor: num(e, "errFloor", 0), LD: num(e, "ld", 0)}
+			ErrScale: num(e, "errScale", 0), ErrFloor: num(e, "errFloor", 0), LD: num(e, "ld", 0), ZeroPoint: num(e, "zeroPoint", 0)}
 		if mk := e.Get("masked"); mk.Type() == js.TypeObject {
 			s.Masked = make([]bool, mk.Length())
 			for j := range s.Masked {

@@ -17,6 +17,7 @@ type Series struct {
 	Masked             []bool  // nil = all used
 	ErrScale, ErrFloor float64 // see fit.Dataset
 	LD                 float64 // linear limb-darkening coefficient u
+	ZeroPoint          float64 // ZP of m = ZP − 2.5 log10 F
 }
 
 // Data holds the loaded photometry and computes the total χ² of a model with
@@ -90,4 +91,32 @@ func (d *Data) Chi2(m *lens.Model) (float64, error) {
 		d.lik, d.ref, d.tol = lik, m.Ref, m.Tol
 	}
 	return d.lik.Chi2(&m.Params)
+}
+
+// Fits returns the per-dataset χ², source and blend fluxes of the last Chi2
+// call (nil before the first); the slice is overwritten by the next call.
+func (d *Data) Fits() []fit.DatasetFit {
+	if d.lik == nil {
+		return nil
+	}
+	return d.lik.Fits()
+}
+
+// Mags writes into dst the magnitudes of magnifications a on the first
+// dataset's scale, m = ZP₀ − 2.5 log10(fs₀·A + fb₀), with the fluxes of the
+// last Chi2 call (the scale the notebook's light-curve plot uses); NaN where
+// the model flux is not positive or no fit is available.
+func (d *Data) Mags(dst, a []float64) []float64 {
+	dst = dst[:0]
+	fits := d.Fits()
+	for _, x := range a {
+		y := math.NaN()
+		if len(fits) > 0 && len(d.sets) > 0 {
+			if f := fits[0].Fs*x + fits[0].Fb; f > 0 {
+				y = d.sets[0].ZeroPoint - 2.5*math.Log10(f)
+			}
+		}
+		dst = append(dst, y)
+	}
+	return dst
 }

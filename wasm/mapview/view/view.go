@@ -50,7 +50,7 @@ type Stats struct {
 }
 
 // GridN is the number of times at which the model light curve is sampled for plotting.
-const GridN = 800
+const GridN = 600
 
 // View is the interactive map state. The zero value is not usable; use New.
 type View struct {

@@ -421,7 +421,7 @@ func runMapTests(t *testing.T, gl bool) {
 	t.Run("drag speed", func(t *testing.T) {
 		idle := eval[float64](t, ctx, `new Promise(r => { let n = 0; const t0 = performance.now(); const f = () => { if (++n === 60) r(59000 / (performance.now() - t0)); else requestAnimationFrame(f) }; requestAnimationFrame(f) })`)
 		load, _ := os.ReadFile("/proc/loadavg")
-		t.Logf("%s: idle page frame rate %.1f/s; load average %s", want, idle, strings.Fields(string(load)+" ?")[0])
+		t.Logf("%s: idle page frame rate %.1f/s; load average %s", want, idle, strings.Fields(string(load) + " ?")[0])
 		for _, rho := range []float64{0, 0.005} {
 			eval[bool](t, ctx, fmt.Sprintf(`(() => { const n = document.getElementById("mv-rho"); n.value = "%v"; n.dispatchEvent(new Event("change")); return true })()`, rho))
 			poll(t, ctx, fmt.Sprintf(`testHost.last().model.rho === %v && testHost.frameAPI().stats().mapDone`, rho), 30*time.Second)

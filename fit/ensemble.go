@@ -8,6 +8,8 @@ import (
 	"math/rand/v2"
 	"sync"
 	"time"
+
+	"gonum.org/v1/gonum/mat"
 )
 
 // LogDensity is an unnormalised log probability density: ln π(x) up to an
@@ -145,6 +147,11 @@ type Start struct {
 	Name   string    // label of the mode (e.g. "close, u0>0")
 	X      []float64 // centre of the initial ball
 	Spread []float64 // 1σ of the ball per parameter, > 0
+	// Cov, when non-nil, shapes the ball instead: walkers are drawn from
+	// N(X, Cov) (a dim×dim symmetric positive-definite matrix, e.g. scaled from
+	// an optimiser's covariance), so a strongly correlated mode starts filled
+	// along its ridge. Spread must still be given; it is used only for checks.
+	Cov [][]float64
 }
 
 // ChainStatus is how a sampler run ended. It says nothing about convergence:
@@ -328,6 +335,27 @@ func runEnsemble(ctx context.Context, set EnsembleSettings, t Target, st Start, 
 			return nil, fmt.Errorf("%w: start %q spread %d = %v must be finite and > 0", ErrEnsemble, st.Name, i, st.Spread[i])
 		}
 	}
+	var chol *mat.TriDense
+	if st.Cov != nil {
+		sym := mat.NewSymDense(dim, nil)
+		if len(st.Cov) != dim {
+			return nil, fmt.Errorf("%w: start %q covariance has %d rows for %d parameters", ErrEnsemble, st.Name, len(st.Cov), dim)
+		}
+		for i, row := range st.Cov {
+			if len(row) != dim {
+				return nil, fmt.Errorf("%w: start %q covariance row %d has %d entries", ErrEnsemble, st.Name, i, len(row))
+			}
+			for j := i; j < dim; j++ {
+				sym.SetSym(i, j, row[j])
+			}
+		}
+		var ch mat.Cholesky
+		if !ch.Factorize(sym) {
+			return nil, fmt.Errorf("%w: start %q covariance is not positive definite", ErrEnsemble, st.Name)
+		}
+		chol = mat.NewTriDense(dim, mat.Lower, nil)
+		ch.LTo(chol)
+	}
 	W := set.Walkers
 	half := W / 2
 	capSteps := set.Steps / set.Thin
@@ -366,8 +394,22 @@ func runEnsemble(ctx context.Context, set EnsembleSettings, t Target, st Start, 
 		x := pos[k*dim : (k+1)*dim]
 		r := rngs[k]
 		for try := 0; try < 1000; try++ {
-			for i := range dim {
-				x[i] = st.X[i] + st.Spread[i]*r.NormFloat64()
+			if chol == nil {
+				for i := range dim {
+					x[i] = st.X[i] + st.Spread[i]*r.NormFloat64()
+				}
+			} else {
+				z := make([]float64, dim)
+				for i := range z {
+					z[i] = r.NormFloat64()
+				}
+				for i := range dim {
+					v := st.X[i]
+					for j := 0; j <= i; j++ {
+						v += chol.At(i, j) * z[j]
+					}
+					x[i] = v
+				}
 			}
 			evals[k]++
 			l, ch := targets[g].eval(x)

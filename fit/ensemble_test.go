@@ -343,3 +343,36 @@ func TestEnsembleMemory(t *testing.T) {
 	}
 	runtime.KeepAlive(c)
 }
+
+func TestEnsembleStartCov(t *testing.T) {
+	// Walkers drawn from N(X, Cov): the initial ensemble's correlation follows
+	// Cov (0.99 here), within the sampling error of 400 walkers (~0.001).
+	cov := [][]float64{{1, 0.99}, {0.99, 1}}
+	c, err := RunEnsemble(context.Background(), EnsembleSettings{Walkers: 400, Steps: 1, Seed: 3},
+		Target{LogDensity: func([]float64) float64 { return 0 }}, Start{X: []float64{5, -5}, Spread: []float64{1, 1}, Cov: cov}, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Step 1 moved some walkers; the stretch move keeps them on lines through
+	// pairs, so the ensemble stays close to the initial correlation.
+	var sxy, sxx, syy, mx, my float64
+	for k := range 400 {
+		x := c.At(0, k)
+		mx += x[0] / 400
+		my += x[1] / 400
+	}
+	for k := range 400 {
+		x := c.At(0, k)
+		sxy += (x[0] - mx) * (x[1] - my)
+		sxx += (x[0] - mx) * (x[0] - mx)
+		syy += (x[1] - my) * (x[1] - my)
+	}
+	if r := sxy / math.Sqrt(sxx*syy); r < 0.97 || math.Abs(mx-5) > 0.3 || math.Abs(my+5) > 0.3 {
+		t.Errorf("initial ensemble correlation %v, centre (%v, %v)", r, mx, my)
+	}
+	_, err = RunEnsemble(context.Background(), EnsembleSettings{}, Target{LogDensity: rosenbrock},
+		Start{X: []float64{1, 1}, Spread: []float64{1, 1}, Cov: [][]float64{{1, 2}, {2, 1}}}, nil)
+	if err == nil || !strings.Contains(err.Error(), "positive definite") {
+		t.Errorf("indefinite covariance: %v", err)
+	}
+}

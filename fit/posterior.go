@@ -142,10 +142,12 @@ type PosteriorSettings struct {
 	// Specs choose the free parameters, bounds and priors; the zero value means
 	// DefaultSpecs of each mode's solution.
 	Specs Specs `json:"specs"`
-	// InitScale sets the initial ball: walkers start around each solution with
-	// InitScale times its 1σ from the solution's covariance (or the optimiser's
-	// typical step when there is none); 0 means 0.1, small enough to start every
-	// walker in the mode, the stretch move widens the ensemble within a few τ.
+	// InitScale sets the initial ball: walkers start around each solution in a
+	// Gaussian of InitScale² times the solution's covariance (with its
+	// correlations), or of InitScale times the optimiser's typical steps when it
+	// has none; 0 means 0.1, small enough to start every walker in the mode, the
+	// stretch move widens the ensemble within a few τ. A covariance that is not
+	// positive definite is an error.
 	InitScale float64 `json:"initScale"`
 }
 
@@ -201,7 +203,7 @@ func SamplePosterior(ctx context.Context, ev *Event, sols []*Solution, set Poste
 		if err != nil {
 			return res, err
 		}
-		st := Start{Name: sol.Label, X: sp.Vector(nil, sol.Params), Spread: initialSpread(sp, sol, scale)}
+		st := Start{Name: sol.Label, X: sp.Vector(nil, sol.Params), Spread: initialSpread(sp, sol, scale), Cov: initialCov(sp, sol, scale)}
 		c, err := runEnsemble(ctx, set.Ensemble, post.Target(), st, m, progress)
 		if err != nil {
 			return res, fmt.Errorf("fit: mode %d (%s): %w", m, sol.Label, err)
@@ -247,6 +249,30 @@ func initialSpread(sp *Space, sol *Solution, scale float64) []float64 {
 	}
 	for i := range out {
 		out[i] *= scale
+	}
+	return out
+}
+
+// initialCov is scale² × the solution's covariance when it matches the Space
+// (nil otherwise): the initial ball then follows the mode's correlations.
+func initialCov(sp *Space, sol *Solution, scale float64) [][]float64 {
+	n := sp.Dim()
+	if !slices.Equal(sol.Free, sp.Free) || len(sol.Cov) != n || (len(sol.IsLog) == n && !slices.Equal(sol.IsLog, sp.isLog)) {
+		return nil
+	}
+	out := make([][]float64, n)
+	for i := range out {
+		if len(sol.Cov[i]) != n {
+			return nil
+		}
+		out[i] = make([]float64, n)
+		for j := range out[i] {
+			v := sol.Cov[i][j]
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				return nil
+			}
+			out[i][j] = scale * scale * v
+		}
 	}
 	return out
 }

@@ -117,8 +117,10 @@ interface Slider {
 
 /** The map panel of the notebook page. */
 export class MapView {
-  readonly mode: MapMode;
-  readonly frame: HTMLIFrameElement;
+  mode: MapMode;
+  frame: HTMLIFrameElement;
+  private base: string;
+  private modeText: HTMLElement;
   latest?: MapState;
   private ready = false;
   private pending: unknown[] = [];
@@ -138,16 +140,12 @@ export class MapView {
   ) {
     this.mode = opts.mode ?? (hasWebGL2() ? "webgl" : "canvas");
     const base = opts.base ?? new URL(".", import.meta.url).href;
+    this.base = base;
     ensureStyles(base);
     panel.classList.add("mv-panel");
     const modeText = h("p", { class: "mv-mode", role: "status", "data-mode": this.mode, text: MODE_TEXT[this.mode] });
-    this.frame = h("iframe", {
-      class: "mv-frame",
-      title:
-        "Magnification map. Drag the white trajectory to move it (u0, t0), drag the orange handle to turn it (α), " +
-        "scroll to zoom, drag elsewhere to pan. Keys: arrows nudge u0 and t0, shift+arrows turn α.",
-      src: new URL(`mapview.html?mode=${this.mode}`, base).href,
-    });
+    this.modeText = modeText;
+    this.frame = this.makeFrame();
     this.legend = h("canvas", { class: "mv-legend-bar", width: "16", height: "256", role: "img", "aria-label": "Colour scale: magnification A, logarithmic" });
     this.ticks = h("div", { class: "mv-legend-ticks" });
     const legend = h("figure", { class: "mv-legend" }, h("figcaption", { text: "A" }), h("div", { class: "mv-legend-body" }, this.legend, this.ticks));
@@ -206,6 +204,32 @@ export class MapView {
     );
     window.addEventListener("message", (e) => this.onMessage(e));
     this.unsub = host.onChange?.(() => this.refresh());
+    this.refresh();
+  }
+
+  private makeFrame(): HTMLIFrameElement {
+    return h("iframe", {
+      class: "mv-frame",
+      title:
+        "Magnification map. Drag the white trajectory to move it (u0, t0), drag the orange handle to turn it (α), " +
+        "scroll to zoom, drag elsewhere to pan. Keys: arrows nudge u0 and t0, shift+arrows turn α.",
+      src: new URL(`mapview.html?mode=${this.mode}`, this.base).href,
+    });
+  }
+
+  /**
+   * Switches to the 2-D canvas program after the WebGL2 one failed at run
+   * time (a context that could be created when probed but not by ebiten, or
+   * one lost later), and tells the user.
+   */
+  private fallBack(reason: string): void {
+    this.mode = "canvas";
+    this.ready = false;
+    const old = this.frame;
+    this.frame = this.makeFrame();
+    old.replaceWith(this.frame);
+    this.modeText.dataset.mode = "canvas";
+    this.modeText.textContent = `WebGL2 failed here (${reason}): drawing with the 2-D canvas fallback (same map, computed in Go, slower to redraw).`;
     this.refresh();
   }
 
@@ -317,10 +341,16 @@ export class MapView {
       case "invalid":
         this.status.textContent = (d as unknown as { message: string }).message;
         break;
-      case "error":
-        this.status.textContent = "Map view failed: " + (d as unknown as { message: string }).message;
+      case "error": {
+        const msg = (d as unknown as { message: string }).message;
+        if (this.mode === "webgl") {
+          this.fallBack(msg);
+          break;
+        }
+        this.status.textContent = "Map view failed: " + msg;
         this.panel.dataset.error = "1";
         break;
+      }
     }
   }
 

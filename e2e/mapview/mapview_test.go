@@ -333,6 +333,41 @@ func runMapTests(t *testing.T, gl bool) {
 
 	t.Run("screenshot", func(t *testing.T) { checkScreenshot(t, ctx, want) })
 
+	t.Run("source at cursor time", func(t *testing.T) {
+		count := func() int {
+			b, err := chromedp.Run(ctx, chromedp.Screenshot(chromedp.CSS("iframe.mv-frame")))
+			if err != nil {
+				t.Fatal(err)
+			}
+			img, err := png.Decode(bytes.NewReader(b))
+			if err != nil {
+				t.Fatal(err)
+			}
+			n := 0
+			bnd := img.Bounds()
+			for y := bnd.Min.Y; y < bnd.Max.Y; y++ {
+				for x := bnd.Min.X; x < bnd.Max.X; x++ {
+					r, g, b, _ := img.At(x, y).RGBA()
+					if near([3]uint8{uint8(r >> 8), uint8(g >> 8), uint8(b >> 8)}, view.SourceColour.R, view.SourceColour.G, view.SourceColour.B, 30) {
+						n++
+					}
+				}
+			}
+			return n
+		}
+		before := count()
+		// The light-curve plot reports the time under its cursor: put it at
+		// t0 (closest approach), where the source is on screen.
+		eval[bool](t, ctx, `(testHost.mv.setCursorTime(testHost.last().model.t0), true)`)
+		time.Sleep(500 * time.Millisecond)
+		after := count()
+		t.Logf("%s: %d source-coloured pixels without a cursor time, %d with", want, before, after)
+		if after < before+20 {
+			t.Errorf("source not drawn at the cursor time: %d → %d pixels", before, after)
+		}
+		eval[bool](t, ctx, `(testHost.mv.setCursorTime(undefined), true)`)
+	})
+
 	t.Run("drag trajectory", func(t *testing.T) {
 		st := stats(t, ctx)
 		if !st.Grips.Visible {
@@ -532,4 +567,24 @@ func near(c [3]uint8, r, g, b uint8, tol int) bool {
 		return int(b - a)
 	}
 	return d(c[0], r) <= tol && d(c[1], g) <= tol && d(c[2], b) <= tol
+}
+
+// The page probes WebGL2 before choosing the ebiten program; if the program
+// still fails (forced here with ?mode=webgl in a browser without 3-D APIs) the
+// panel switches to the canvas program and says so.
+func TestMapRuntimeFallback(t *testing.T) {
+	srv := server(t)
+	ctx := browser(t, false)
+	if err := chromedp.Do(ctx, chromedp.Navigate(srv.URL+"/host.html?mode=webgl")); err != nil {
+		t.Fatal(err)
+	}
+	poll(t, ctx, `document.querySelector(".mv-mode")?.dataset.mode === "canvas" && document.querySelector("#map-panel").dataset.ready === "1" && !!testHost.last()`, 60*time.Second)
+	msg := eval[string](t, ctx, `document.querySelector(".mv-mode").textContent`)
+	t.Logf("mode text after the failure: %q", msg)
+	if !strings.Contains(msg, "failed") || !strings.Contains(msg, "fallback") {
+		t.Errorf("user not told about the switch: %q", msg)
+	}
+	if got := eval[string](t, ctx, `testHost.frameAPI().stats().mode`); got != "canvas" {
+		t.Errorf("frame mode %q after the fallback", got)
+	}
 }

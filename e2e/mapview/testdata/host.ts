@@ -36,7 +36,7 @@ async function main(): Promise<void> {
     refine,
     recv,
     last: () => last,
-    frameAPI: () => (mv.frame.contentWindow as unknown as { lensMapView?: unknown }).lensMapView,
+    frameAPI: () => ((mv.frame as HTMLIFrameElement).contentWindow as unknown as { lensMapView?: unknown }).lensMapView,
     dragInPage: (x: number, y: number, dx: number, dy: number, n: number) => dragInPage(mv.frame, x, y, dx, dy, n),
   };
 }

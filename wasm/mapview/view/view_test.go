@@ -320,3 +320,33 @@ func BenchmarkPaint(b *testing.B) {
 		v.Paint(&f)
 	}
 }
+
+// The source is drawn to scale (radius ρ in pixels of the view) at the
+// position lens.Model.At gives for the cursor time, and not drawn without one.
+func TestSceneSourceDisk(t *testing.T) {
+	m := planetary
+	m.Rho = 0.02
+	tr := Transform{Scale: 0.001, W: 400, H: 400}
+	g := Geometry{Model: m, CursorT: math.NaN(), DPR: 1}
+	rings := func() []Prim {
+		var out []Prim
+		for _, p := range BuildScene(nil, tr, &g) {
+			if p.Kind == Ring && p.Col == SourceColour {
+				out = append(out, p)
+			}
+		}
+		return out
+	}
+	if r := rings(); len(r) != 0 {
+		t.Fatalf("source drawn without a cursor time: %+v", r)
+	}
+	g.CursorT = m.T0 + 0.3
+	r := rings()
+	if len(r) != 1 {
+		t.Fatalf("got %d source rings", len(r))
+	}
+	x, y := tr.ToScreen(m.At(g.CursorT, lens.Offset{}).Zeta)
+	if math.Abs(float64(r[0].Pts[0].X)-x) > 1e-3 || math.Abs(float64(r[0].Pts[0].Y)-y) > 1e-3 || math.Abs(float64(r[0].R)-20) > 1e-4 {
+		t.Errorf("source ring at (%v, %v) radius %v, want (%v, %v) radius 20", r[0].Pts[0].X, r[0].Pts[0].Y, r[0].R, x, y)
+	}
+}

@@ -81,6 +81,13 @@ type Event struct {
 	Tol float64 `json:"tol"`
 	// Masks records every exclusion applied with Event.Mask.
 	Masks []Mask `json:"masks"`
+	// Coords is the event's sky position (ICRS degrees), needed for annual
+	// parallax; nil when unknown (see parallax.go).
+	Coords *Coords `json:"coords,omitempty"`
+	// TRef is the reference epoch t0,par of parallax and orbital motion (full
+	// JD), fixed during fits; 0 means the t0 of the starting solution (see
+	// SetDefaultTRef).
+	TRef float64 `json:"tref,omitempty"`
 }
 
 // ErrNoData reports an event without usable points.

@@ -33,6 +33,7 @@ type Likelihood struct {
 	n    int
 	eval lens.Evaluator
 	mod  lens.Model
+	par  parallaxState // t0,par and cached parallax offsets (parallax.go)
 }
 
 type lset struct {
@@ -92,6 +93,9 @@ func (l *Likelihood) Counts() [lens.Contour + 1]int { return l.eval.Counts }
 // magnify fills every dataset's magnification buffer for p.
 func (l *Likelihood) magnify(p *lens.Params) error {
 	l.mod = lens.Model{Params: *p, Ref: l.ev.Ref, Tol: l.ev.Tol}
+	if err := l.par.prepare(l, p); err != nil {
+		return err
+	}
 	for k := range l.sets {
 		s := &l.sets[k]
 		if len(s.t) == 0 {
@@ -104,7 +108,7 @@ func (l *Likelihood) magnify(p *lens.Params) error {
 		// (alternating timing on the 10,000-point benchmark event). It costs one small
 		// allocation per dataset.
 		l.eval = lens.Evaluator{Counts: l.eval.Counts}
-		if err := l.eval.LightCurve(s.a, &l.mod, s.t, nil); err != nil {
+		if err := l.eval.LightCurve(s.a, &l.mod, s.t, l.par.offsets(k)); err != nil {
 			return err
 		}
 	}

@@ -1,0 +1,143 @@
+package fit
+
+import (
+	"fmt"
+
+	"lensbook/lens"
+)
+
+// Annual parallax and lens orbital motion in the likelihood.
+//
+// The model follows the geocentric formalism of Gould (2004, ApJ 606, 319) as
+// implemented by lens.ParallaxOffsets and lens.Model.At: πE = (πE,N, πE,E) are
+// free parameters like any other (PiEN, PiEE), and the trajectory is offset by
+// the Sun's projected position relative to its position and velocity at the
+// reference epoch t0,par. Linear orbital motion (DsDt, DAlphaDt) is measured
+// about the same epoch.
+//
+// t0,par is held FIXED during a fit (common practice): then the offsets, which
+// cost a solar ephemeris evaluation per point (~5 µs), are computed once per
+// dataset and reused by every χ² call. It is Event.TRef when the user set it;
+// otherwise the t0 of the first model with parallax or orbital motion the
+// likelihood evaluates — the starting solution of the fit — and
+// Likelihood.TRef reports the value used (Refine records it in Solution.TRef).
+// SetDefaultTRef writes that default into the event so that it is recorded in
+// the notebook before the fit starts.
+
+// SetDefaultTRef sets e.TRef to start.T0 when the user has not chosen t0,par
+// (e.TRef == 0) and returns the value in force.
+func (e *Event) SetDefaultTRef(start lens.Params) float64 {
+	if e.TRef == 0 {
+		e.TRef = start.T0
+	}
+	return e.TRef
+}
+
+// HasParallax reports whether p has a non-zero microlens parallax.
+func HasParallax(p *lens.Params) bool { return p.PiEN != 0 || p.PiEE != 0 }
+
+// HasOrbit reports whether p has linear lens orbital motion.
+func HasOrbit(p *lens.Params) bool { return p.DsDt != 0 || p.DAlphaDt != 0 }
+
+// ParallaxOffsets returns the parallax offsets of the event at the given times
+// for reference epoch tref (full JD): nil when the event has no coordinates.
+// Use them with lens.LightCurve to draw model curves at arbitrary times.
+func (e *Event) ParallaxOffsets(times []float64, tref float64) ([]lens.Offset, error) {
+	if e.Coords == nil {
+		return nil, nil
+	}
+	if err := e.Coords.Validate(); err != nil {
+		return nil, err
+	}
+	if !isFinite(tref) || tref == 0 {
+		return nil, fmt.Errorf("fit: parallax reference epoch t0,par = %v must be a finite full JD", tref)
+	}
+	ra, dec := e.Coords.Radians()
+	off := make([]lens.Offset, len(times))
+	lens.ParallaxOffsets(off, times, ra, dec, tref)
+	return off, nil
+}
+
+// ModelCurve fills dst with the magnification of p at the given times as the
+// likelihood computes it (reference point, tolerance, limb darkening ld,
+// parallax offsets for t0,par = tref when p has parallax). tref 0 means
+// e.TRef, or p.T0 when that is 0 too. It is for plots and forecasts.
+func (e *Event) ModelCurve(dst []float64, p lens.Params, ld float64, times []float64, tref float64) error {
+	if tref == 0 {
+		tref = e.TRef
+	}
+	if tref == 0 {
+		tref = p.T0
+	}
+	m := lens.Model{Params: p, Ref: e.Ref, Tol: e.Tol, LD: ld, TRef: tref}
+	var off []lens.Offset
+	if HasParallax(&p) {
+		if e.Coords == nil {
+			return errNoCoords(&p)
+		}
+		var err error
+		if off, err = e.ParallaxOffsets(times, tref); err != nil {
+			return err
+		}
+	}
+	return lens.LightCurve(dst, &m, times, off)
+}
+
+func errNoCoords(p *lens.Params) error {
+	return fmt.Errorf("fit: parallax πE = (%g, %g) needs the event coordinates (RA, Dec): set them in the Data step", p.PiEN, p.PiEE)
+}
+
+// parallaxState is the part of a Likelihood that deals with parallax and
+// orbital motion: the fixed t0,par and the cached offsets of each dataset.
+type parallaxState struct {
+	tref float64         // t0,par in use (full JD); 0 until fixed
+	off  [][]lens.Offset // per dataset, per used point; nil until needed
+	use  bool            // the current model has parallax
+}
+
+// prepare fixes t0,par and computes the offsets when the model p first needs
+// them, and sets the model's reference epoch.
+func (st *parallaxState) prepare(l *Likelihood, p *lens.Params) error {
+	par := HasParallax(p)
+	st.use = par
+	if st.tref == 0 && (par || HasOrbit(p)) {
+		st.tref = l.ev.TRef
+		if st.tref == 0 {
+			st.tref = p.T0
+		}
+		if !isFinite(st.tref) {
+			st.tref = 0
+			return fmt.Errorf("fit: parallax reference epoch t0,par = %v is not finite", p.T0)
+		}
+	}
+	l.mod.TRef = st.tref
+	if !par || st.off != nil {
+		return nil
+	}
+	if l.ev.Coords == nil {
+		return errNoCoords(p)
+	}
+	off := make([][]lens.Offset, len(l.sets))
+	for k := range l.sets {
+		o, err := l.ev.ParallaxOffsets(l.sets[k].t, st.tref)
+		if err != nil {
+			return err
+		}
+		off[k] = o
+	}
+	st.off = off
+	return nil
+}
+
+// offsets returns dataset k's offsets for the current model (nil without parallax).
+func (st *parallaxState) offsets(k int) []lens.Offset {
+	if !st.use {
+		return nil
+	}
+	return st.off[k]
+}
+
+// TRef returns the parallax and orbital-motion reference epoch t0,par (full
+// JD) this likelihood uses: Event.TRef, or the t0 of the first model with
+// parallax or orbital motion it evaluated; 0 while none has been evaluated.
+func (l *Likelihood) TRef() float64 { return l.par.tref }

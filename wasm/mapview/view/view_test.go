@@ -309,17 +309,6 @@ func TestPaintCaustic(t *testing.T) {
 
 func near8(a, b uint8) bool { return a-b < 40 || b-a < 40 }
 
-func BenchmarkPaint(b *testing.B) {
-	v := New(planetary, 512, 512, 1)
-	for !v.MapDone() {
-		v.Step(time.Second)
-	}
-	var f Frame
-	b.ResetTimer()
-	for range b.N {
-		v.Paint(&f)
-	}
-}
 
 // The source is drawn to scale (radius ρ in pixels of the view) at the
 // position lens.Model.At gives for the cursor time, and not drawn without one.

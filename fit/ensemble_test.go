@@ -96,6 +96,9 @@ func TestEnsembleGaussian10D(t *testing.T) {
 		// Shorter chain; covariances checked on the first two off-diagonals only.
 		steps, band = 3000, 2
 	}
+	if testing.Short() && runtime.GOOS == "js" {
+		steps = 1500 // wasm runs several times slower; the native run is the long check
+	}
 	start := Start{X: make([]float64, 10), Spread: slices.Repeat([]float64{0.1}, 10)}
 	c, err := RunEnsemble(context.Background(), EnsembleSettings{Walkers: 40, Steps: steps, Seed: 1}, Target{LogDensity: logp}, start, nil)
 	if err != nil {
@@ -132,6 +135,9 @@ func TestEnsembleRosenbrock(t *testing.T) {
 	steps, thin := 500000, 25
 	if testing.Short() {
 		steps, thin = 30000, 5
+	}
+	if testing.Short() && runtime.GOOS == "js" {
+		steps = 8000 // wasm runs several times slower; the native run is the long check
 	}
 	start := Start{X: []float64{1, 1}, Spread: []float64{0.1, 0.1}}
 	c, err := RunEnsemble(context.Background(), EnsembleSettings{Walkers: 64, Steps: steps, Thin: thin, Seed: 7}, Target{LogDensity: rosenbrock}, start, nil)

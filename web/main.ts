@@ -982,9 +982,25 @@ function figureBox(fig: SVGSVGElement, name: string): HTMLElement {
   return el("figure", {}, fig, el("figcaption", {}, "Export: ", svgBtn, pngBtn));
 }
 
+/**
+ * Outputs are rebuilt only when what they show changed (the result object, the
+ * selected solution, the curves); re-rendering a step's status after another
+ * step ran reuses them, which keeps large SVG figures off the page thread.
+ */
+const outputCache = new Map<StepId, { key: unknown[]; node: HTMLElement }>();
+
 function renderOutputs(id: StepId, body: HTMLElement): void {
   const s = steps[id];
+  const key: unknown[] = [s.result, selected];
+  if (id === "refine") key.push(curves);
+  if (id === "report") key.push(steps.posterior.result, doc, pool.steps.length, steps.single.result, steps.refine.result);
+  const hit = outputCache.get(id);
+  if (hit && hit.key.length === key.length && hit.key.every((k, i) => k === key[i])) {
+    body.append(hit.node);
+    return;
+  }
   const out = el("div", { class: "outputs" });
+  outputCache.set(id, { key, node: out });
   switch (id) {
     case "single": {
       const r = s.result as SingleResult | undefined;

@@ -307,7 +307,13 @@ func runMapTests(t *testing.T, gl bool) {
 	srv := server(t)
 	ctx := browser(t, gl)
 	want := map[bool]string{true: "webgl", false: "canvas"}[gl]
-	if err := chromedp.Do(ctx, chromedp.Navigate(srv.URL+"/host.html")); err != nil {
+	query := ""
+	if gl {
+		// With only SwiftShader the page itself prefers the canvas program
+		// (checked in TestMapAutoMode); force the ebiten one here.
+		query = "?mode=webgl"
+	}
+	if err := chromedp.Do(ctx, chromedp.Navigate(srv.URL+"/host.html"+query)); err != nil {
 		t.Fatal(err)
 	}
 	// The view appears in the expected mode and reports a first state with χ².
@@ -316,7 +322,7 @@ func runMapTests(t *testing.T, gl bool) {
 		t.Fatalf("mode = %q, want %q", got, want)
 	}
 	modeText := eval[string](t, ctx, `document.querySelector(".mv-mode").textContent`)
-	if gl != !strings.Contains(modeText, "fallback") {
+	if gl != !strings.Contains(modeText, "2-D canvas") {
 		t.Errorf("mode text %q does not tell the user the mode", modeText)
 	}
 	poll(t, ctx, `testHost.frameAPI().stats().mapDone`, 60*time.Second)
@@ -586,5 +592,32 @@ func TestMapRuntimeFallback(t *testing.T) {
 	}
 	if got := eval[string](t, ctx, `testHost.frameAPI().stats().mode`); got != "canvas" {
 		t.Errorf("frame mode %q after the fallback", got)
+	}
+}
+
+// Without a query the page picks the program itself: with SwiftShader as the
+// only WebGL2 it takes the canvas program and says why; with no 3-D APIs it
+// takes the canvas program as the fallback.
+func TestMapAutoMode(t *testing.T) {
+	srv := server(t)
+	for _, gl := range []bool{true, false} {
+		ctx := browser(t, gl)
+		if err := chromedp.Do(ctx, chromedp.Navigate(srv.URL+"/host.html")); err != nil {
+			t.Fatal(err)
+		}
+		poll(t, ctx, `document.querySelector("#map-panel")?.dataset.ready === "1"`, 60*time.Second)
+		mode := eval[string](t, ctx, `document.querySelector(".mv-mode").dataset.mode`)
+		soft := eval[string](t, ctx, `document.querySelector(".mv-mode").dataset.softwareWebgl`)
+		text := eval[string](t, ctx, `document.querySelector(".mv-mode").textContent`)
+		t.Logf("WebGL flags %v: mode %s, software WebGL %s: %q", gl, mode, soft, text)
+		if mode != "canvas" {
+			t.Errorf("WebGL flags %v: mode %q, want canvas", gl, mode)
+		}
+		if gl && (soft != "true" || !strings.Contains(text, "software renderer")) {
+			t.Errorf("SwiftShader not recognised or not explained: software=%s, %q", soft, text)
+		}
+		if !gl && !strings.Contains(text, "not available") {
+			t.Errorf("fallback not explained: %q", text)
+		}
 	}
 }

@@ -32,6 +32,12 @@ export interface PlotInput {
 
 export type DragMode = "zoom" | "mask" | "unmask";
 
+/** Tick labels as plain decimals (no thousands separators), as many decimals as the tick step needs. */
+const plainTicks = (_u: uPlot, splits: number[], _ax: number, _space: number, incr: number) => {
+  const d = Math.min(6, Math.max(0, -Math.floor(Math.log10(incr) + 1e-9)));
+  return splits.map((v) => (v == null ? "" : v.toFixed(d)));
+};
+
 export class LightCurvePlot {
   private main?: uPlot;
   private res?: uPlot;
@@ -201,7 +207,7 @@ export class LightCurvePlot {
         series,
         scales: { x: { time: false }, y: { dir: -1 } },
         axes: [
-          { label: "HJD′ = JD − 2450000", stroke: "#3b4652", grid: { stroke: "#e6e2d8" } },
+          { label: "HJD′ = JD − 2450000", stroke: "#3b4652", grid: { stroke: "#e6e2d8" }, values: plainTicks },
           { label: input.yLabel, stroke: "#3b4652", grid: { stroke: "#e6e2d8" }, size: 60 },
         ],
         cursor: { sync: { key: sync.key, setSeries: false }, drag: { x: true, y: true, uni: 30 } },
@@ -254,7 +260,7 @@ export class LightCurvePlot {
           series: rseries,
           scales: { x: { time: false }, y: { dir: -1 } },
           axes: [
-            { stroke: "#3b4652", grid: { stroke: "#e6e2d8" } },
+            { stroke: "#3b4652", grid: { stroke: "#e6e2d8" }, values: plainTicks },
             { label: "residual (mag)", stroke: "#3b4652", grid: { stroke: "#e6e2d8" }, size: 60 },
           ],
           legend: { show: false },

@@ -23,7 +23,7 @@ func BenchmarkMap(b *testing.B) {
 			exact := 0
 			for range b.N {
 				var err error
-				if sp, err = newSampler(sp, m, planetary.S, planetary.Q, v.curves); err != nil {
+				if sp, err = newSampler(sp, m, planetary.S, planetary.Q, v.curves, map[bool]float64{true: coarseTol, false: relTol}[n < 512]); err != nil {
 					b.Fatal(err)
 				}
 				m.Rows = 0

@@ -24,7 +24,7 @@ func (m *Map) Covers(x, y float64) bool {
 	return x >= m.X0 && x < m.X1 && y >= m.Y0 && y < m.Y0+float64(m.Rows)*(m.Y1-m.Y0)/float64(m.NY)
 }
 
-// Background is the colour of screen pixels no computed map covers yet.
+// Background0 is the colour of screen pixels no computed map covers yet.
 var Background0 = color.RGBA{20, 20, 28, 255}
 
 // Frame is an RGBA image in the layout of the canvas ImageData

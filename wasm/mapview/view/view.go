@@ -352,7 +352,7 @@ func (v *View) startMaps() {
 	v.coarse = reuseMap(v.coarse, r, cnx, cny)
 	v.coarse.Gen = v.gen
 	var err error
-	if v.coarseS, err = newSampler(v.coarseS, v.coarse, v.Model.S, v.Model.Q, v.curves); err != nil {
+	if v.coarseS, err = newSampler(v.coarseS, v.coarse, v.Model.S, v.Model.Q, v.curves, coarseTol); err != nil {
 		v.Err = err
 		return
 	}
@@ -363,7 +363,7 @@ func (v *View) startMaps() {
 	t = time.Now()
 	v.full = reuseMap(v.full, r, nx, ny)
 	v.full.Gen = v.gen
-	if v.fullS, err = newSampler(v.fullS, v.full, v.Model.S, v.Model.Q, v.curves); err != nil {
+	if v.fullS, err = newSampler(v.fullS, v.full, v.Model.S, v.Model.Q, v.curves, relTol); err != nil {
 		v.Err = err
 		return
 	}

@@ -279,6 +279,18 @@ func TestProgressive(t *testing.T) {
 	if full.Rows == 0 || full.Rows == full.NY || v.MapDone() {
 		t.Fatalf("full map rows %d of %d after one zero-budget step", full.Rows, full.NY)
 	}
+	// The preview is within 2·coarseTol of the lens (coarseTol holds at the
+	// tested points of each block, not between them).
+	want := make([]float32, len(coarse.A))
+	b, _ := lens.NewBinary(1.2, 0.01)
+	if err := lens.MagMap(want, b, lens.Rect{X0: coarse.X0, Y0: coarse.Y0, X1: coarse.X1, Y1: coarse.Y1}, coarse.NX, coarse.NY); err != nil {
+		t.Fatal(err)
+	}
+	for k := range want {
+		if rel := math.Abs(float64(coarse.A[k]-want[k])) / float64(want[k]); rel > 2*coarseTol {
+			t.Fatalf("coarse pixel %d: %v, lens.MagMap %v", k, coarse.A[k], want[k])
+		}
+	}
 	if err := v.SetLens(-1, 0.01, 0); err == nil {
 		t.Error("SetLens accepted s = -1")
 	}
@@ -308,7 +320,6 @@ func TestPaintCaustic(t *testing.T) {
 }
 
 func near8(a, b uint8) bool { return a-b < 40 || b-a < 40 }
-
 
 // The source is drawn to scale (radius ρ in pixels of the view) at the
 // position lens.Model.At gives for the cursor time, and not drawn without one.

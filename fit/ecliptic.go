@@ -1,6 +1,7 @@
 package fit
 
 import (
+	"context"
 	"fmt"
 	"math"
 
@@ -175,4 +176,38 @@ func dot3(a, b [3]float64) float64 { return a[0]*b[0] + a[1]*b[1] + a[2]*b[2] }
 func unit3(a [3]float64) [3]float64 {
 	n := math.Sqrt(dot3(a, a))
 	return [3]float64{a[0] / n, a[1] / n, a[2] / n}
+}
+
+// eclipticPartner refines the ecliptic partner of sol when sol has parallax
+// and the event has coordinates; nil otherwise. The partner is fitted with the
+// same t0,par as sol (the likelihood's, fixed).
+func eclipticPartner(ctx context.Context, l *Likelihood, sol *Solution, set RefineSettings) (*Partner, error) {
+	ev := l.Event()
+	if !HasParallax(&sol.Params) || ev.Coords == nil {
+		return nil, nil
+	}
+	tref := l.TRef()
+	switch {
+	case tref == 0 && sol.TRef != 0:
+		l.par.tref = sol.TRef
+		tref = sol.TRef
+	case tref == 0:
+		tref = ev.TRef
+		if tref == 0 {
+			tref = sol.Params.T0
+		}
+		l.par.tref = tref
+	case sol.TRef != 0 && sol.TRef != tref:
+		return nil, fmt.Errorf("fit: ecliptic partner: solution was fitted with t0,par = %v, the likelihood uses %v", sol.TRef, tref)
+	}
+	st, err := EclipticPartnerStart(sol.Params, *ev.Coords, tref)
+	if err != nil {
+		return nil, err
+	}
+	ps, err := Refine(ctx, l, st, set)
+	if ps == nil {
+		return nil, err
+	}
+	ps.Label = partnerLabel(sol.Label, Ecliptic, 0)
+	return &Partner{Kind: Ecliptic, Solution: ps, DeltaChi2: ps.Chi2 - sol.Chi2}, nil
 }

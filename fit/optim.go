@@ -114,10 +114,10 @@ func (s OptSettings) tol() float64 {
 	return 1e-3
 }
 
-// ErrParallax reports a fit asked to free the parallax: the likelihood does
-// not yet carry the observer's Sun offsets per epoch, without which πE has no
-// effect on the light curve.
-var ErrParallax = errors.New("fit: parallax (piEN, piEE) cannot be fitted yet: the likelihood has no observer ephemeris")
+// ErrParallax reports a fit asked to free the parallax of an event without
+// sky coordinates (Event.Coords): the Sun offsets per epoch need them, and
+// without them πE has no effect on the light curve.
+var ErrParallax = errors.New("fit: parallax (piEN, piEE) cannot be fitted: the event has no sky coordinates (RA, Dec)")
 
 // errStop is returned internally when the evaluation budget is spent.
 var errStop = errors.New("fit: evaluation budget spent")
@@ -446,7 +446,7 @@ func (o *objective) levenbergMarquardt(tol float64) (Status, error) {
 // and returns the best model found. Parameters not free keep start's values.
 // A cancelled ctx returns the best point so far with Status Cancelled.
 func Optimize(ctx context.Context, l *Likelihood, start lens.Params, specs Specs, set OptSettings) (*Solution, error) {
-	if specs.PiEN.Free || specs.PiEE.Free {
+	if (specs.PiEN.Free || specs.PiEE.Free) && l.ev.Coords == nil {
 		return nil, ErrParallax
 	}
 	sp, err := NewSpace(start, specs)

@@ -141,3 +141,21 @@ func (st *parallaxState) offsets(k int) []lens.Offset {
 // JD) this likelihood uses: Event.TRef, or the t0 of the first model with
 // parallax or orbital motion it evaluated; 0 while none has been evaluated.
 func (l *Likelihood) TRef() float64 { return l.par.tref }
+
+// fixTRef fixes t0,par before a fit from start with the given specs when the
+// model has, or may acquire, parallax or orbital motion: Event.TRef when set,
+// else start's t0 (the default of the starting solution). It does nothing when
+// t0,par is already fixed.
+func (l *Likelihood) fixTRef(start *lens.Params, specs *Specs) {
+	if l.par.tref != 0 {
+		return
+	}
+	if !HasParallax(start) && !HasOrbit(start) && !specs.PiEN.Free && !specs.PiEE.Free &&
+		!specs.DsDt.Free && !specs.DAlphaDt.Free {
+		return
+	}
+	l.par.tref = l.ev.TRef
+	if l.par.tref == 0 && isFinite(start.T0) {
+		l.par.tref = start.T0
+	}
+}

@@ -22,6 +22,11 @@ const (
 	// binary axis, which leaves the light curve unchanged exactly when there is no
 	// parallax (the binary lens is symmetric about its axis). It is not refined.
 	Mirror PartnerKind = "mirror"
+	// Ecliptic maps (u0, α, dα/dt) → −(u0, α, dα/dt) and reflects πE about the
+	// ecliptic direction at the event: the ecliptic degeneracy of annual
+	// parallax, exact on the ecliptic and approximate elsewhere, so refined
+	// (EclipticPartnerStart, ecliptic.go).
+	Ecliptic PartnerKind = "ecliptic"
 )
 
 // Partner is a degenerate partner of a solution.
@@ -86,6 +91,14 @@ func Partners(ctx context.Context, l *Likelihood, sol *Solution, set RefineSetti
 			return out, nil
 		}
 	}
+	if ep, err := eclipticPartner(ctx, l, sol, set); err != nil || ep != nil {
+		if ep != nil {
+			out = append(out, *ep)
+		}
+		if err != nil || ep.Solution.Status == Cancelled {
+			return out, err
+		}
+	}
 	if sol.Params.PiEN == 0 && sol.Params.PiEE == 0 {
 		mp, _ := PartnerStart(sol.Params, ref, Mirror)
 		c, err := l.Chi2(&mp)
@@ -138,6 +151,8 @@ func partnerLabel(base string, k PartnerKind, s float64) string {
 		return base + " (wide partner)"
 	case Mirror:
 		return base + " (mirror)"
+	case Ecliptic:
+		return base + " (ecliptic partner)"
 	}
 	return base
 }

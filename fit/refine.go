@@ -31,11 +31,15 @@ type Solution struct {
 	Method Method      `json:"method"`
 	Evals  int         `json:"evals"` // χ² evaluations used
 	Note   string      `json:"note,omitempty"`
+	// TRef is the reference epoch t0,par of parallax and orbital motion the
+	// fit used (full JD; 0 for a static model fitted before any other).
+	TRef float64 `json:"tref,omitempty"`
 }
 
 // RefineSettings configures Refine. The zero value frees t0, u0, tE for a single
 // lens and t0, u0, tE, s, q, α (and ρ when the start has ρ > 0) for a binary lens,
-// with the default optimiser, and computes the covariance.
+// plus πE,N, πE,E and ds/dt, dα/dt when the start has parallax or orbital
+// motion, with the default optimiser, and computes the covariance.
 type RefineSettings struct {
 	// Specs chooses the free parameters, bounds and priors; the zero value means
 	// the default set above.
@@ -54,6 +58,12 @@ func DefaultSpecs(p lens.Params) Specs {
 	if p.Rho > 0 {
 		free = append(free, Rho)
 	}
+	if HasParallax(&p) {
+		free = append(free, PiEN, PiEE)
+	}
+	if HasOrbit(&p) {
+		free = append(free, DsDt, DAlphaDt)
+	}
 	return FreeSpecs(free...)
 }
 
@@ -70,7 +80,11 @@ func Refine(ctx context.Context, l *Likelihood, start lens.Params, set RefineSet
 	if len(specs.Free()) == 0 {
 		specs = DefaultSpecs(start)
 	}
+	l.fixTRef(&start, &specs)
 	sol, err := Optimize(ctx, l, start, specs, set.Opt)
+	if sol != nil {
+		sol.TRef = l.TRef()
+	}
 	if err != nil || sol.Status == Cancelled || set.NoCov {
 		return sol, err
 	}

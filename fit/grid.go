@@ -48,6 +48,14 @@ type GridSettings struct {
 	MaxEval int `json:"maxEval"`
 	// Tol is the χ² change counted as converged at a node; 0 means 0.05.
 	Tol float64 `json:"tol"`
+	// AnomalyT (full JD), when > 0, adds one α seed per node that puts the
+	// source on the binary axis at that time, on the side of the planetary
+	// caustic(s): the caustic lies near x = s − 1/s from the host (Griest &
+	// Safizadeh 1998; Han 2006), so a localised anomaly at τa = (AnomalyT − t0)/tE
+	// means arg ζ(τa) = 0 for s > 1 and π for s < 1, i.e. α = −atan2(u0, τa)
+	// or π − atan2(u0, τa). Set it from SingleResult.Anomaly (midpoint of the
+	// window) when an anomaly was found away from the peak.
+	AnomalyT float64 `json:"anomalyT"`
 	// NoBin uses every data point in the grid. By default runs of points where
 	// the start model is smooth and fits within 3σ are merged by inverse-variance
 	// binning for the grid stage (see BinDays, BinTol); refinement always uses
@@ -244,10 +252,19 @@ func RunGridChunk(ctx context.Context, ev *Event, start lens.Params, set GridSet
 		nd := &g.Nodes[k]
 		l.ResetSolver()
 		// 1. every α seed at the start values; 2. polish the best few.
-		seeds := make([]lens.Params, len(alphas))
-		chis := make([]float64, len(alphas))
-		order := make([]int, len(alphas))
-		for i, a := range alphas {
+		nodeAlphas := alphas
+		if set.AnomalyT > 0 {
+			tau := (set.AnomalyT - start.T0) / start.TE
+			a := -math.Atan2(start.U0, tau)
+			if nd.LogS < 0 {
+				a += math.Pi
+			}
+			nodeAlphas = append(alphas[:len(alphas):len(alphas)], WrapAlpha(a))
+		}
+		seeds := make([]lens.Params, len(nodeAlphas))
+		chis := make([]float64, len(nodeAlphas))
+		order := make([]int, len(nodeAlphas))
+		for i, a := range nodeAlphas {
 			p := start
 			p.S, p.Q, p.Alpha, p.Rho = math.Pow(10, nd.LogS), math.Pow(10, nd.LogQ), a, rho
 			seeds[i], order[i] = p, i

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"sort"
+	"strings"
 
 	"lensbook/lens"
 )
@@ -35,8 +36,8 @@ type SingleResult struct {
 	PreferFinite bool       `json:"preferFinite"`
 	Residuals    []Residual `json:"residuals"` // of the preferred fit
 	Anomaly      Anomaly    `json:"anomaly"`   // of the preferred fit
-	// Clean is the preferred model refitted without the anomaly window (widened
-	// by half its length on each side); nil when no anomaly was found. An
+	// Clean is the preferred model refitted without the anomaly windows (found
+	// and masked repeatedly, see cleanFit); nil when no anomaly was found. An
 	// anomaly pulls a single-lens fit away from the underlying event, so Clean
 	// is the better seed of t0, u0, tE for a binary search.
 	Clean  *Solution `json:"clean,omitempty"`
@@ -293,30 +294,62 @@ func FitSingle(ctx context.Context, ev *Event, set SingleSettings) (*SingleResul
 	}
 	res.Anomaly = FindAnomaly(res.Residuals, best.Params.TE, set.AnomalySigma)
 	if res.Anomaly.Found {
-		pad := 0.5 * (res.Anomaly.T2 - res.Anomaly.T1)
-		cev := *ev
-		cev.Datasets = make([]*Dataset, len(ev.Datasets))
-		for k, d := range ev.Datasets {
-			cd := *d
-			cd.Masked = make([]bool, d.Len())
-			for i, t := range d.T {
-				cd.Masked[i] = !d.Used(i) || (t >= res.Anomaly.T1-pad && t <= res.Anomaly.T2+pad)
-			}
-			cev.Datasets[k] = &cd
-		}
-		cl, err := NewLikelihood(&cev)
-		if err == nil {
-			specs := FreeSpecs(T0, U0, TE)
-			if best.Params.Rho > 0 {
-				specs = FreeSpecs(T0, U0, TE, Rho)
-			}
-			c, err := Optimize(ctx, cl, best.Params, specs, set.Opt)
-			if err == nil && c.Status != Failed {
-				c.Label = "without the anomaly"
-				c.Note = fmt.Sprintf("points in [%.5f, %.5f] excluded", res.Anomaly.T1-pad, res.Anomaly.T2+pad)
-				res.Clean = c
-			}
-		}
+		res.Clean = cleanFit(ctx, ev, best, res.Anomaly, set)
 	}
 	return res, nil
+}
+
+// cleanFit refits the single lens without its anomalies: it masks the anomaly
+// window (widened by half its length on each side), refits, looks for a new
+// anomaly among the points still used, and repeats (at most 5 windows), since a
+// long anomaly is found piece by piece by FindAnomaly's window widths.
+func cleanFit(ctx context.Context, ev *Event, best *Solution, a Anomaly, set SingleSettings) *Solution {
+	cev := *ev
+	cev.Datasets = make([]*Dataset, len(ev.Datasets))
+	for k, d := range ev.Datasets {
+		cd := *d
+		cd.Masked = make([]bool, d.Len())
+		for i := range cd.Masked {
+			cd.Masked[i] = !d.Used(i)
+		}
+		cev.Datasets[k] = &cd
+	}
+	specs := FreeSpecs(T0, U0, TE)
+	if best.Params.Rho > 0 {
+		specs = FreeSpecs(T0, U0, TE, Rho)
+	}
+	var out *Solution
+	var windows []string
+	p := best.Params
+	for it := 0; it < 5 && a.Found; it++ {
+		pad := 0.5 * (a.T2 - a.T1)
+		lo, hi := a.T1-pad, a.T2+pad
+		windows = append(windows, fmt.Sprintf("[%.5f, %.5f]", lo, hi))
+		for _, d := range cev.Datasets {
+			for i, t := range d.T {
+				if t >= lo && t <= hi {
+					d.Masked[i] = true
+				}
+			}
+		}
+		cl, err := NewLikelihood(&cev)
+		if err != nil {
+			break // too few points left
+		}
+		c, err := Optimize(ctx, cl, p, specs, set.Opt)
+		if err != nil || c.Status == Failed || c.Status == Cancelled {
+			break
+		}
+		out, p = c, c.Params
+		res, err := cl.AppendResiduals(nil, &p)
+		if err != nil {
+			break
+		}
+		a = FindAnomaly(res, p.TE, set.AnomalySigma)
+	}
+	if out != nil {
+		out.Label = "without the anomaly"
+		out.Note = "points excluded in " + strings.Join(windows, ", ")
+	}
+	return out
 }

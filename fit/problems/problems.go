@@ -173,10 +173,13 @@ func PlanetCentral() *Spec {
 
 // PlanetaryCaustic is a low-magnification event whose source crosses the
 // planetary caustic of a wide planet (s = 1.35, q = 1e-3; caustic near
-// s − 1/s = 0.61 from the host, Han 2006), with a finite source.
+// s − 1/s = 0.61 from the host, Han 2006), with a finite source. α = 6.08 rad
+// puts the caustic centre 0.61·|sin α| ≈ 0.123 from the trajectory line, within
+// the caustic's half-height (≈ 2√q/(s√(s²+1)) = 0.028) of u0 = 0.12; the
+// crossing comes at τ ≈ 0.61·cos α ≈ 0.6, i.e. t0 + 16.7 d.
 func PlanetaryCaustic() *Spec {
 	return &Spec{Name: "planetary caustic crossing", Note: "planetary-caustic crossing at low magnification",
-		Truth: lens.Model{Params: lens.Params{T0: jd0, U0: 0.12, TE: 28, S: 1.35, Q: 1e-3, Alpha: 0.35, Rho: 0.003}, Ref: lens.CentralCaustic},
+		Truth: lens.Model{Params: lens.Params{T0: jd0, U0: 0.12, TE: 28, S: 1.35, Q: 1e-3, Alpha: 6.08, Rho: 0.003}, Ref: lens.CentralCaustic},
 		Sites: []Site{
 			survey("simsurvey", jd0-80, jd0+80, 0.1, 900, 300, 0.012),
 			{Name: "simfollow", Band: "I", Windows: []Window{{jd0 + 16, jd0 + 20, 0.01}}, NightFrac: 0,

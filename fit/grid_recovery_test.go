@@ -57,9 +57,7 @@ func recoverBinary(t *testing.T, s *problems.Spec, seed uint64, grid fit.GridSet
 	// the grid's ρ comes from GridSettings.Rho for finite-source events (a
 	// single-lens fit cannot measure ρ of a planetary or binary caustic crossing)
 	start := single.GridStart()
-	if a := single.Anomaly; math.Abs((a.T1+a.T2)/2-start.T0) > 0.1*start.TE {
-		grid.AnomalyT = (a.T1 + a.T2) / 2 // anomaly away from the peak: planetary caustic
-	}
+	grid.AnomalyT = single.AnomalyTime()
 	set := fit.SearchSettings{Grid: grid}
 	res, err := fit.Search(ctx, ev, start, set, nil)
 	if err != nil {

@@ -61,6 +61,22 @@ func (r *SingleResult) Best() *Solution {
 	return r.Point
 }
 
+// AnomalyTime returns the midpoint of the anomaly window when an anomaly was
+// found away from the peak (more than 0.1 tE from t0 of GridStart), else 0:
+// the value for GridSettings.AnomalyT (a planetary-caustic signature; an
+// anomaly at the peak comes from the central caustic and needs no such seed).
+func (r *SingleResult) AnomalyTime() float64 {
+	a := r.Anomaly
+	if !a.Found {
+		return 0
+	}
+	p := r.GridStart()
+	if t := (a.T1 + a.T2) / 2; math.Abs(t-p.T0) > 0.1*p.TE {
+		return t
+	}
+	return 0
+}
+
 // Anomaly is the strongest localised departure of the data from a model: the
 // time window in which the residual χ² most exceeds its expectation (one per
 // point).

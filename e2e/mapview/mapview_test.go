@@ -487,7 +487,18 @@ func runMapTests(t *testing.T, gl bool) {
 			for i := 1; i < len(fr); i++ {
 				worst = math.Max(worst, fr[i]-fr[i-1])
 			}
-			nrecv := eval[int](t, ctx, `testHost.recv.length`) - n0
+			recv := eval[[]float64](t, ctx, `testHost.recv`)[n0:]
+			nrecv := len(recv)
+			// Latency from the frame that recomputed the model to the host
+			// page holding the new curve and χ² (one message per update, in order).
+			var lat []float64
+			for i := 0; i < min(len(recv), len(fr)); i++ {
+				lat = append(lat, recv[i]-fr[i])
+			}
+			slices.Sort(lat)
+			if len(lat) > 0 {
+				t.Logf("%s ρ=%v: update → host latency median %.1f ms, max %.1f ms", want, rho, lat[len(lat)/2], lat[len(lat)-1])
+			}
 			t.Logf("%s ρ=%v: %d model updates in %.0f ms: %.1f updates/s (page frames %.1f/s, worst gap %.1f ms); light curve + χ² %.2f ms/update; %d states reached the host",
 				want, rho, len(fr), fr[len(fr)-1]-fr[0], fps, res["fps"], worst, fs.Map["curveMs"], nrecv)
 			for k, ts := range fs.Timing {

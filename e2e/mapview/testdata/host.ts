@@ -8,7 +8,7 @@ interface TestEvent {
   model: MapModel;
 }
 
-const recv: number[] = []; // performance.now() at each state message
+const recv: number[] = []; // time (timeOrigin + now(), ms) of each state message
 const refine: MapModel[] = [];
 
 async function main(): Promise<void> {
@@ -25,7 +25,7 @@ async function main(): Promise<void> {
         refine.push(m);
       },
       showModel: (s) => {
-        recv.push(performance.now());
+        recv.push(performance.timeOrigin + performance.now());
         last = s;
       },
     },

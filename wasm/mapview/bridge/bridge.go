@@ -53,7 +53,7 @@ type Bridge struct {
 	buf    []byte
 	posted int
 
-	frames []float64 // performance.now() of frames whose Step recomputed the model
+	frames []float64 // time (performance.timeOrigin + now(), ms) of frames whose Step recomputed the model
 	grips  map[string]any
 	mags   []float64
 	timing map[string][]float64
@@ -150,7 +150,8 @@ func (b *Bridge) Step(v *view.View, budget time.Duration) view.Changed {
 	b.mu.Unlock()
 	if ch.Model {
 		b.mu.Lock()
-		b.frames = append(b.frames, b.perf.Call("now").Float())
+		// wall-clock ms (timeOrigin + now), comparable with the host page's clock
+		b.frames = append(b.frames, b.perf.Get("timeOrigin").Float()+b.perf.Call("now").Float())
 		if len(b.frames) > 4096 {
 			b.frames = append(b.frames[:0], b.frames[2048:]...)
 		}

@@ -439,6 +439,42 @@ func runMapTests(t *testing.T, gl bool) {
 		poll(t, ctx, fmt.Sprintf(`Math.abs(testHost.frameAPI().stats().grips.alpha - %v) > 0.01`, st.Alpha), 5*time.Second)
 	})
 
+	t.Run("zoom and pan", func(t *testing.T) {
+		st := stats(t, ctx)
+		// A point of the background away from the trajectory.
+		lx, ly := pagePoint(t, ctx, st.Grips.Line, st.Grips.DPR)
+		nx, ny := -math.Sin(st.Grips.Alpha), -math.Cos(st.Grips.Alpha)
+		bx, by := lx-90*nx, ly-90*ny
+		cx, cy := pagePoint(t, ctx, [2]float64{256 * st.Grips.DPR, 256 * st.Grips.DPR}, st.Grips.DPR)
+		if math.Hypot(bx-cx, by-cy) > 240 { // keep inside the map
+			bx, by = lx+90*nx, ly+90*ny
+		}
+		// Scrolling up zooms in about the pointer: the scale shrinks.
+		// (DevTools' mouseWheel cannot send deltaX = 0, so the wheel event is
+		// dispatched on the map's canvas in frame coordinates.)
+		off := eval[[]float64](t, ctx, `(() => { const r = testHost.mv.frame.getBoundingClientRect(); const s = getComputedStyle(testHost.mv.frame);
+			return [r.left + parseFloat(s.borderLeftWidth), r.top + parseFloat(s.borderTopWidth)] })()`)
+		eval[bool](t, ctx, fmt.Sprintf(`(() => { const f = testHost.mv.frame, W = f.contentWindow;
+			f.contentDocument.querySelector("canvas").dispatchEvent(new W.WheelEvent("wheel", {clientX: %v, clientY: %v, deltaY: -300, deltaMode: 0, bubbles: true, cancelable: true}));
+			return true })()`, bx-off[0], by-off[1]))
+		poll(t, ctx, fmt.Sprintf(`testHost.frameAPI().stats().grips.scale < %v`, 0.95*st.Grips.Scale), 5*time.Second)
+		// Dragging the background pans: the trajectory moves on screen while
+		// u0, t0 and α stay.
+		st = stats(t, ctx)
+		drag(t, ctx, [2]float64{bx, by}, [2]float64{bx + 30, by + 20}, 5)
+		after := stats(t, ctx).Grips
+		if after.U0 != st.Grips.U0 || after.T0 != st.Grips.T0 || after.Alpha != st.Grips.Alpha {
+			t.Errorf("panning changed the model: %+v → %+v", st.Grips, after)
+		}
+		// The line point nearest the view centre moves with the content: its
+		// distance from the line point before the pan is the pan's normal part.
+		k := (after.Line[0]-st.Grips.Line[0])*nx*st.Grips.DPR + (after.Line[1]-st.Grips.Line[1])*ny*st.Grips.DPR
+		want := (30*nx + 20*ny) * st.Grips.DPR
+		if math.Abs(k-want) > 3*st.Grips.DPR {
+			t.Errorf("after a (30, 20) px pan the trajectory moved %.1f px across itself, want %.1f", k, want)
+		}
+	})
+
 	t.Run("use as starting point", func(t *testing.T) {
 		if err := chromedp.Do(ctx, chromedp.Click(chromedp.CSS("button.mv-use"))); err != nil {
 			t.Fatal(err)

@@ -173,7 +173,7 @@ export class MapView {
     this.frame = this.makeFrame();
     this.legend = h("canvas", { class: "mv-legend-bar", width: "16", height: "256", role: "img", "aria-label": "Colour scale: magnification A, logarithmic" });
     this.ticks = h("div", { class: "mv-legend-ticks" });
-    const legend = h("figure", { class: "mv-legend" }, h("figcaption", { text: "A" }), h("div", { class: "mv-legend-body" }, this.legend, this.ticks));
+    const legend = h("figure", { class: "mv-legend" }, h("figcaption", { text: "A (log)" }), h("div", { class: "mv-legend-body" }, this.legend, this.ticks));
     const mk = (key: "s" | "q" | "rho", label: string, lo: number, hi: number, help: string): Slider => {
       const id = `mv-${key}`;
       const range = h("input", { type: "range", id: id + "-range", min: String(lo), max: String(hi), step: "0.001", "aria-label": `${label} (logarithmic slider)` });

@@ -88,6 +88,9 @@ type Event struct {
 	// JD), fixed during fits; 0 means the t0 of the starting solution (see
 	// SetDefaultTRef).
 	TRef float64 `json:"tref,omitempty"`
+	// Observers holds, per dataset, the ephemeris of an observatory away from
+	// the Earth (nil or missing entries: ground-based; see ObserverTable).
+	Observers []*ObserverTable `json:"observers,omitempty"`
 }
 
 // ErrNoData reports an event without usable points.

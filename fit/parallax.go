@@ -59,10 +59,24 @@ func (e *Event) ParallaxOffsets(times []float64, tref float64) ([]lens.Offset, e
 }
 
 // ModelCurve fills dst with the magnification of p at the given times as the
-// likelihood computes it (reference point, tolerance, limb darkening ld,
-// parallax offsets for t0,par = tref when p has parallax). tref 0 means
-// e.TRef, or p.T0 when that is 0 too. It is for plots and forecasts.
+// likelihood computes it for a ground-based dataset (reference point,
+// tolerance, limb darkening ld, parallax offsets for t0,par = tref when p has
+// parallax). tref 0 means e.TRef, or p.T0 when that is 0 too. It is for plots
+// and forecasts; DatasetCurve does the same for one dataset's observatory.
 func (e *Event) ModelCurve(dst []float64, p lens.Params, ld float64, times []float64, tref float64) error {
+	return e.curve(-1, dst, p, ld, times, tref)
+}
+
+// DatasetCurve is ModelCurve for dataset k: its limb darkening and, when it
+// has one, its observatory's parallax offsets (Event.Observers).
+func (e *Event) DatasetCurve(k int, dst []float64, p lens.Params, times []float64, tref float64) error {
+	if k < 0 || k >= len(e.Datasets) {
+		return fmt.Errorf("fit: dataset index %d out of range [0, %d)", k, len(e.Datasets))
+	}
+	return e.curve(k, dst, p, e.Datasets[k].LD, times, tref)
+}
+
+func (e *Event) curve(k int, dst []float64, p lens.Params, ld float64, times []float64, tref float64) error {
 	if tref == 0 {
 		tref = e.TRef
 	}
@@ -76,7 +90,7 @@ func (e *Event) ModelCurve(dst []float64, p lens.Params, ld float64, times []flo
 			return errNoCoords(&p)
 		}
 		var err error
-		if off, err = e.ParallaxOffsets(times, tref); err != nil {
+		if off, err = e.DatasetOffsets(k, times, tref); err != nil {
 			return err
 		}
 	}
@@ -119,7 +133,7 @@ func (st *parallaxState) prepare(l *Likelihood, p *lens.Params) error {
 	}
 	off := make([][]lens.Offset, len(l.sets))
 	for k := range l.sets {
-		o, err := l.ev.ParallaxOffsets(l.sets[k].t, st.tref)
+		o, err := l.ev.DatasetOffsets(k, l.sets[k].t, st.tref)
 		if err != nil {
 			return err
 		}

@@ -106,20 +106,27 @@ func TestSplitRHat(t *testing.T) {
 	}
 }
 
+// BenchmarkIntegratedTime compares IntegratedTime (direct sum for short
+// windows, FFT for long ones) with the textbook direct sum over lags as
+// baseline, for a short (τ = 19) and a long (τ = 399) autocorrelation.
 func BenchmarkIntegratedTime(b *testing.B) {
 	r := rand.New(rand.NewPCG(1, 1))
-	ch := ar1(r, 0.9, 32, 10000)
-	b.Run("fft", func(b *testing.B) {
-		for b.Loop() {
-			IntegratedTime(ch, 0)
-		}
-	})
-	// Baseline: the direct O(n·M) sum over lags up to the same window.
-	b.Run("direct", func(b *testing.B) {
-		for b.Loop() {
-			directTau(ch, SokalWindow)
-		}
-	})
+	for _, c := range []struct {
+		name string
+		phi  float64
+	}{{"tau19", 0.9}, {"tau399", 0.995}} {
+		ch := ar1(r, c.phi, 16, 20000)
+		b.Run(c.name+"/ours", func(b *testing.B) {
+			for b.Loop() {
+				IntegratedTime(ch, 0)
+			}
+		})
+		b.Run(c.name+"/textbook-direct", func(b *testing.B) {
+			for b.Loop() {
+				directTau(ch, SokalWindow)
+			}
+		})
+	}
 }
 
 // directTau is the textbook estimator without FFT, a baseline for the benchmark
@@ -155,9 +162,18 @@ func directTau(chains [][]float64, c float64) float64 {
 
 func TestIntegratedTimeMatchesDirect(t *testing.T) {
 	r := rand.New(rand.NewPCG(5, 5))
-	ch := ar1(r, 0.8, 4, 3000)
-	got, want := IntegratedTime(ch, 0).Tau, directTau(ch, SokalWindow)
-	if math.Abs(got-want) > 1e-9*want {
-		t.Errorf("FFT τ = %.15g, direct sum %.15g", got, want)
+	// φ = 0.8 settles within the direct-sum lags; φ = 0.995 (τ ≈ 400) needs
+	// the FFT path.
+	for _, phi := range []float64{0.8, 0.995} {
+		ch := ar1(r, phi, 4, 30000)
+		got, want := IntegratedTime(ch, 0).Tau, directTau(ch, SokalWindow)
+		var w acfWork
+		_, direct := w.directTime(ch, SokalWindow, 8*16)
+		if math.Abs(got-want) > 1e-9*want {
+			t.Errorf("φ = %v (direct path %v): τ = %.15g, textbook direct sum %.15g", phi, direct, got, want)
+		}
+		if direct != (phi == 0.8) {
+			t.Errorf("φ = %v: direct path taken %v", phi, direct)
+		}
 	}
 }

@@ -2,6 +2,7 @@ package fit
 
 import (
 	"fmt"
+	"strconv"
 
 	"lensbook/lens"
 )
@@ -172,4 +173,33 @@ func (l *Likelihood) fixTRef(start *lens.Params, specs *Specs) {
 	if l.par.tref == 0 && isFinite(start.T0) {
 		l.par.tref = start.T0
 	}
+}
+
+// ParallaxConventions returns export-header lines ("key: value", like
+// Conventions) recording the event's coordinates, t0,par and observatories,
+// for the parallax and orbital-motion parameters of a solution fitted with
+// t0,par = tref (0: e.TRef). Without coordinates it says parallax was not
+// modelled.
+func ParallaxConventions(e *Event, tref float64) []string {
+	if tref == 0 {
+		tref = e.TRef
+	}
+	if e.Coords == nil {
+		return []string{"coordinates: not given (no annual parallax modelled)"}
+	}
+	c := *e.Coords
+	out := []string{
+		fmt.Sprintf("coordinates: RA %s deg, Dec %s deg (ICRS; %s)", strconv.FormatFloat(c.RA, 'f', 6, 64), strconv.FormatFloat(c.Dec, 'f', 6, 64), c.String()),
+		"parallax: geocentric formalism (Gould 2004, ApJ 606, 319); piEN, piEE are the north and east components of the microlens parallax; Earth ephemeris VSOP87 (truncated) with lunar correction",
+		"orbital_motion: dsdt in Einstein radii per Julian year, dalphadt in angle per Julian year, both linear about t0par",
+	}
+	if tref != 0 {
+		out = append(out, "t0par: "+strconv.FormatFloat(tref, 'f', -1, 64)+" (full JD; reference epoch of parallax and orbital motion, fixed during fits)")
+	}
+	for k, o := range e.Observers {
+		if o != nil && k < len(e.Datasets) && e.Datasets[k] != nil {
+			out = append(out, fmt.Sprintf("observatory: dataset %s observed from %s (ephemeris table, geocentric ICRS AU)", e.Datasets[k].Name, o.Name))
+		}
+	}
+	return out
 }

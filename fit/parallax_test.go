@@ -183,3 +183,25 @@ func TestModelCurveMatchesLikelihood(t *testing.T) {
 		}
 	}
 }
+
+func TestParallaxConventions(t *testing.T) {
+	c := Coords{RA: 269.380833, Dec: -28.686667}
+	ev := pxEvent(&c, 2460870)
+	ev.Observers = []*ObserverTable{nil, {Name: "probe"}}
+	lines := ParallaxConventions(ev, 0)
+	all := strings.Join(lines, "\n")
+	for _, want := range []string{"RA 269.380833 deg", "Dec -28.686667 deg", "17:57:31.400 -28:41:12.00", "t0par: 2460870 ", "Gould 2004",
+		"dataset b observed from probe"} {
+		if !strings.Contains(all, want) {
+			t.Errorf("conventions lack %q:\n%s", want, all)
+		}
+	}
+	for _, l := range lines {
+		if k, _, ok := strings.Cut(l, ": "); !ok || strings.ContainsAny(k, " \n") {
+			t.Errorf("line %q is not key: value", l)
+		}
+	}
+	if l := ParallaxConventions(pxEvent(nil, 0), 0); len(l) != 1 || !strings.Contains(l[0], "not given") {
+		t.Errorf("without coordinates: %q", l)
+	}
+}

@@ -471,7 +471,17 @@ async function runFrame(): Promise<void> {
     if (e.altKey || e.ctrlKey || e.metaKey) return;
     if (api.key(e.key, e.shiftKey)) e.preventDefault();
   });
-  if (!canvas) return; // ebiten handles pointer input itself
+  if (!canvas) {
+    // ebiten handles pointer input itself; give its canvas a name once it exists.
+    const name = () => {
+      const c = document.querySelector("canvas");
+      if (!c) return void setTimeout(name, 100);
+      c.setAttribute("role", "application");
+      c.setAttribute("aria-label", "Magnification map (WebGL2)");
+    };
+    name();
+    return;
+  }
   const cv = canvas;
   const g = cv.getContext("2d")!;
   const dpr = () => window.devicePixelRatio || 1;

@@ -50,7 +50,7 @@ void main();
 function dragInPage(frame: HTMLIFrameElement, x: number, y: number, dx: number, dy: number, n: number): Promise<{ fps: number }> {
   const doc = frame.contentDocument!;
   const cv = doc.querySelector("canvas")!;
-  const pointer = !!doc.querySelector("canvas[role=application]");
+  const pointer = new URL(frame.src).searchParams.get("mode") === "canvas"; // the canvas program listens to pointer events, ebiten to mouse events
   const send = (type: "down" | "move" | "up", px: number, py: number) => {
     const init = { clientX: px, clientY: py, button: 0, buttons: type === "up" ? 0 : 1, bubbles: true, cancelable: true };
     const W = frame.contentWindow as unknown as typeof globalThis;

@@ -187,17 +187,15 @@ func eclipticPartner(ctx context.Context, l *Likelihood, sol *Solution, set Refi
 		return nil, nil
 	}
 	tref := l.TRef()
-	switch {
-	case tref == 0 && sol.TRef != 0:
-		l.par.tref = sol.TRef
+	if tref == 0 {
 		tref = sol.TRef
-	case tref == 0:
-		tref = ev.TRef
 		if tref == 0 {
-			tref = sol.Params.T0
+			tref = ev.TRef
 		}
-		l.par.tref = tref
-	case sol.TRef != 0 && sol.TRef != tref:
+		if err := l.SetTRef(tref); err != nil {
+			return nil, fmt.Errorf("fit: ecliptic partner: %w", err)
+		}
+	} else if sol.TRef != 0 && sol.TRef != tref {
 		return nil, fmt.Errorf("fit: ecliptic partner: solution was fitted with t0,par = %v, the likelihood uses %v", sol.TRef, tref)
 	}
 	st, err := EclipticPartnerStart(sol.Params, *ev.Coords, tref)

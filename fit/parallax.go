@@ -1,6 +1,7 @@
 package fit
 
 import (
+	"errors"
 	"fmt"
 	"strconv"
 
@@ -19,11 +20,12 @@ import (
 // t0,par is held FIXED during a fit (common practice): then the offsets, which
 // cost a solar ephemeris evaluation per point (~5 µs), are computed once per
 // dataset and reused by every χ² call. It is Event.TRef when the user set it;
-// otherwise the t0 of the first model with parallax or orbital motion the
-// likelihood evaluates — the starting solution of the fit — and
-// Likelihood.TRef reports the value used (Refine records it in Solution.TRef).
-// SetDefaultTRef writes that default into the event so that it is recorded in
-// the notebook before the fit starts.
+// otherwise Refine fixes it at the t0 of its starting solution (the default of
+// the trade) and records it in Solution.TRef. Likelihood.TRef reports the
+// value in use and SetTRef fixes it explicitly (e.g. to a solution's TRef).
+// SetDefaultTRef writes the default into the event so that it is recorded in
+// the notebook before the fit starts. A model with parallax or orbital motion
+// evaluated before t0,par is chosen is an error (ErrNoTRef), never a guess.
 
 // SetDefaultTRef sets e.TRef to start.T0 when the user has not chosen t0,par
 // (e.TRef == 0) and returns the value in force.
@@ -116,14 +118,13 @@ func (st *parallaxState) prepare(l *Likelihood, p *lens.Params) error {
 	par := HasParallax(p)
 	st.use = par
 	if st.tref == 0 && (par || HasOrbit(p)) {
+		if par && l.ev.Coords == nil {
+			return errNoCoords(p)
+		}
+		if !isFinite(l.ev.TRef) || l.ev.TRef == 0 {
+			return ErrNoTRef
+		}
 		st.tref = l.ev.TRef
-		if st.tref == 0 {
-			st.tref = p.T0
-		}
-		if !isFinite(st.tref) {
-			st.tref = 0
-			return fmt.Errorf("fit: parallax reference epoch t0,par = %v is not finite", p.T0)
-		}
 	}
 	l.mod.TRef = st.tref
 	if !par || st.off != nil {
@@ -152,9 +153,30 @@ func (st *parallaxState) offsets(k int) []lens.Offset {
 	return st.off[k]
 }
 
+// ErrNoTRef reports a model with parallax or orbital motion evaluated before
+// t0,par was chosen. Refine chooses it (Event.TRef, else the start's t0);
+// other callers set Event.TRef (SetDefaultTRef, or a solution's TRef) or call
+// Likelihood.SetTRef first. Guessing it from whichever model comes first
+// would make the result depend on evaluation order.
+var ErrNoTRef = errors.New("fit: the reference epoch t0,par of parallax and orbital motion is not set (Event.TRef or Likelihood.SetTRef)")
+
+// SetTRef fixes this likelihood's t0,par (full JD, finite and non-zero), e.g.
+// to a solution's TRef before evaluating it; it is an error to change it once
+// fixed (the cached offsets depend on it).
+func (l *Likelihood) SetTRef(tref float64) error {
+	if !isFinite(tref) || tref == 0 {
+		return fmt.Errorf("fit: t0,par = %v must be a finite full JD", tref)
+	}
+	if l.par.tref != 0 && l.par.tref != tref {
+		return fmt.Errorf("fit: t0,par is already fixed at %v for this likelihood (asked %v)", l.par.tref, tref)
+	}
+	l.par.tref = tref
+	return nil
+}
+
 // TRef returns the parallax and orbital-motion reference epoch t0,par (full
-// JD) this likelihood uses: Event.TRef, or the t0 of the first model with
-// parallax or orbital motion it evaluated; 0 while none has been evaluated.
+// JD) this likelihood uses: fixed by SetTRef, by Refine, or from Event.TRef at
+// the first model with parallax or orbital motion; 0 while not fixed.
 func (l *Likelihood) TRef() float64 { return l.par.tref }
 
 // fixTRef fixes t0,par before a fit from start with the given specs when the

@@ -112,7 +112,7 @@ func TestParallaxNeedsCoordinates(t *testing.T) {
 		t.Errorf("Optimize: %v, want ErrParallax", err)
 	}
 	bad := Coords{RA: 361, Dec: 0}
-	l, _ = NewLikelihood(pxEvent(&bad, 0))
+	l, _ = NewLikelihood(pxEvent(&bad, 2460800))
 	if _, err := l.Chi2(&p); err == nil || !strings.Contains(err.Error(), "out of range") {
 		t.Errorf("χ² with RA 361°: %v", err)
 	}
@@ -159,6 +159,38 @@ func TestParallaxTRefFixed(t *testing.T) {
 	}
 	if got := ev.SetDefaultTRef(start); got != sol.Params.T0 {
 		t.Errorf("SetDefaultTRef overwrote a set t0,par: %v", got)
+	}
+}
+
+// Without a chosen t0,par a parallax or orbital-motion model is an error (no
+// guess from whichever model comes first); SetTRef fixes it once.
+func TestParallaxNoTRef(t *testing.T) {
+	c := Coords{RA: 269.5, Dec: -29}
+	l, _ := NewLikelihood(pxEvent(&c, 0))
+	for _, p := range []lens.Params{
+		{T0: 2460800, U0: 0.2, TE: 90, PiEN: 0.1},
+		{T0: 2460800, U0: 0.2, TE: 90, S: 1, Q: 0.1, DsDt: 0.1},
+	} {
+		if _, err := l.Chi2(&p); !errors.Is(err, ErrNoTRef) {
+			t.Errorf("%+v: %v, want ErrNoTRef", p, err)
+		}
+	}
+	static := lens.Params{T0: 2460800, U0: 0.2, TE: 90}
+	if _, err := l.Chi2(&static); err != nil {
+		t.Errorf("static model: %v", err)
+	}
+	if err := l.SetTRef(2460795); err != nil {
+		t.Fatal(err)
+	}
+	p := lens.Params{T0: 2460800, U0: 0.2, TE: 90, PiEN: 0.1}
+	if _, err := l.Chi2(&p); err != nil || l.TRef() != 2460795 {
+		t.Errorf("after SetTRef: %v, TRef %v", err, l.TRef())
+	}
+	if err := l.SetTRef(2460796); err == nil {
+		t.Error("t0,par changed after it was fixed")
+	}
+	if err := l.SetTRef(math.NaN()); err == nil {
+		t.Error("NaN t0,par accepted")
 	}
 }
 

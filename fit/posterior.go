@@ -21,6 +21,7 @@ type Posterior struct {
 	Space *Space
 	Event *Event
 	lik   *Likelihood
+	tref  float64
 }
 
 // NewPosterior builds the posterior of ev in the coordinates of sp.
@@ -30,6 +31,17 @@ func NewPosterior(ev *Event, sp *Space) (*Posterior, error) {
 		return nil, err
 	}
 	return &Posterior{Space: sp, Event: ev, lik: l}, nil
+}
+
+// SetTRef fixes the parallax and orbital-motion reference epoch t0,par (full
+// JD) to a solution's (Solution.TRef), so that its πE and orbital parameters
+// mean the same as in the fit; see Likelihood.SetTRef.
+func (p *Posterior) SetTRef(tref float64) error {
+	if err := p.lik.SetTRef(tref); err != nil {
+		return err
+	}
+	p.tref = tref
+	return nil
 }
 
 // Eval returns ln π(x) and χ²(x). Outside the bounds, or where the model is
@@ -59,8 +71,11 @@ func (p *Posterior) LogProb(x []float64) float64 {
 // buffers and lens solver; the event is shared read-only).
 func (p *Posterior) Fork() *Posterior {
 	q, err := NewPosterior(p.Event, p.Space)
+	if err == nil && p.tref != 0 {
+		err = q.SetTRef(p.tref)
+	}
 	if err != nil {
-		panic("fit: Posterior.Fork of a validated event failed: " + err.Error())
+		panic("fit: Posterior.Fork of a validated posterior failed: " + err.Error())
 	}
 	return q
 }
@@ -158,7 +173,8 @@ type ModeResult struct {
 	Chain   *Chain   // all stored steps, in Space coordinates
 	Samples *Samples // kept samples in exported units (PhysicalSamples)
 	Summary Summary
-	K       int // fitted parameters: Space dimension plus flux parameters
+	K       int     // fitted parameters: Space dimension plus flux parameters
+	TRef    float64 // t0,par of the mode's solution (full JD; 0 when not fixed)
 }
 
 // PosteriorResult holds every mode's posterior and their comparison.
@@ -203,6 +219,11 @@ func SamplePosterior(ctx context.Context, ev *Event, sols []*Solution, set Poste
 		if err != nil {
 			return res, err
 		}
+		if sol.TRef != 0 {
+			if err := post.SetTRef(sol.TRef); err != nil {
+				return res, fmt.Errorf("fit: mode %d (%s): %w", m, sol.Label, err)
+			}
+		}
 		st := Start{Name: sol.Label, X: sp.Vector(nil, sol.Params), Spread: initialSpread(sp, sol, scale), Cov: initialCov(sp, sol, scale)}
 		c, err := runEnsemble(ctx, set.Ensemble, post.Target(), st, m, progress)
 		if err != nil {
@@ -218,7 +239,7 @@ func SamplePosterior(ctx context.Context, ev *Event, sols []*Solution, set Poste
 			return res, fmt.Errorf("fit: mode %d (%s): %w", m, sol.Label, err)
 		}
 		res.Modes = append(res.Modes, ModeResult{Label: sol.Label, Space: sp, Chain: c, Samples: phys, Summary: sum,
-			K: sp.Dim() + linearParams(ev)})
+			K: sp.Dim() + linearParams(ev), TRef: sol.TRef})
 		res.NData = post.lik.N()
 		if c.Status == ChainCancelled {
 			res.Cancelled = true
@@ -314,31 +335,49 @@ func (m *ModeResult) Draws(n int, seed uint64) []lens.Params {
 }
 
 // LightCurveModel evaluates light curves of lens models against an event's
-// datasets: magnification with each dataset's limb darkening, fluxes solved
-// against the data, model magnitudes with each dataset's zero point. Not safe
+// datasets as the likelihood does (Event.DatasetCurve: each dataset's limb
+// darkening and, with parallax, its observatory's offsets), with fluxes solved
+// against the data and model magnitudes at each dataset's zero point. Not safe
 // for concurrent use.
 type LightCurveModel struct {
 	ev     *Event
 	lik    *Likelihood
-	eval   lens.Evaluator
 	solver *lens.Solver
 	imgs   []lens.Image
 	buf    []float64
 }
 
-// NewLightCurveModel prepares light-curve evaluation for ev.
-func NewLightCurveModel(ev *Event) (*LightCurveModel, error) {
+// NewLightCurveModel prepares light-curve evaluation for ev; tref fixes t0,par
+// (a solution's TRef; 0 leaves it to the likelihood: Event.TRef).
+func NewLightCurveModel(ev *Event, tref float64) (*LightCurveModel, error) {
 	l, err := NewLikelihood(ev)
 	if err != nil {
 		return nil, err
 	}
+	if tref != 0 {
+		if err := l.SetTRef(tref); err != nil {
+			return nil, err
+		}
+	}
 	return &LightCurveModel{ev: ev, lik: l}, nil
 }
 
-// Curve fills amp with the magnification of p at times (with the first
-// dataset's limb darkening) and mags[d] with dataset d's model magnitude
-// ZP − 2.5 log10(fs·A + fb), fs and fb solved against the data at p (NaN where
-// the model flux is not positive). It returns the per-dataset fits.
+// tref is the reference epoch of the last evaluated model.
+func (c *LightCurveModel) tref(p *lens.Params) float64 {
+	if t := c.lik.TRef(); t != 0 {
+		return t
+	}
+	if c.ev.TRef != 0 {
+		return c.ev.TRef
+	}
+	return p.T0
+}
+
+// Curve fills amp with the magnification of p at times as seen by the first
+// dataset (its limb darkening and observatory) and mags[d] with dataset d's
+// model magnitude ZP − 2.5 log10(fs·A + fb), fs and fb solved against the data
+// at p (NaN where the model flux is not positive). It returns the per-dataset
+// fits. It panics if the slice lengths differ.
 func (c *LightCurveModel) Curve(amp []float64, mags [][]float64, p lens.Params, times []float64) ([]DatasetFit, error) {
 	if len(mags) != len(c.ev.Datasets) || len(amp) != len(times) {
 		panic("fit: LightCurveModel.Curve slice lengths differ")
@@ -347,23 +386,18 @@ func (c *LightCurveModel) Curve(amp []float64, mags [][]float64, p lens.Params, 
 	if _, err := c.lik.Chi2(&p); err != nil {
 		return nil, err
 	}
-	fits := c.lik.Fits()
-	m := lens.Model{Params: p, Ref: c.ev.Ref, Tol: c.ev.Tol}
+	fits := slices.Clone(c.lik.Fits())
 	if cap(c.buf) < len(times) {
 		c.buf = make([]float64, len(times))
 	}
 	a := c.buf[:len(times)]
-	lastLD := math.NaN()
+	tref := c.tref(&p)
 	for d, ds := range c.ev.Datasets {
 		if len(mags[d]) != len(times) {
 			panic("fit: LightCurveModel.Curve slice lengths differ")
 		}
-		if ds.LD != lastLD {
-			m.LD = ds.LD
-			if err := c.eval.LightCurve(a, &m, times, nil); err != nil {
-				return nil, err
-			}
-			lastLD = ds.LD
+		if err := c.ev.DatasetCurve(d, a, p, times, tref); err != nil {
+			return nil, err
 		}
 		if d == 0 {
 			copy(amp, a)
@@ -377,19 +411,27 @@ func (c *LightCurveModel) Curve(amp []float64, mags [][]float64, p lens.Params, 
 			}
 		}
 	}
-	if len(c.ev.Datasets) == 0 {
-		if err := c.eval.LightCurve(amp, &m, times, nil); err != nil {
-			return nil, err
-		}
-	}
-	return slices.Clone(fits), nil
+	return fits, nil
 }
 
 // ImageCount returns the number of point-source images of the source centre of
-// model p at time t (2 for a single lens).
+// model p at time t as seen from the Earth (parallax offsets included when p
+// has parallax); 2 for a single lens.
 func (c *LightCurveModel) ImageCount(p lens.Params, t float64) (int, error) {
-	m := lens.Model{Params: p, Ref: c.ev.Ref}
-	g := m.At(t, lens.Offset{})
+	tref := c.tref(&p)
+	m := lens.Model{Params: p, Ref: c.ev.Ref, TRef: tref}
+	var off lens.Offset
+	if HasParallax(&p) {
+		o, err := c.ev.ParallaxOffsets([]float64{t}, tref)
+		if err != nil {
+			return 0, err
+		}
+		if o == nil {
+			return 0, errNoCoords(&p)
+		}
+		off = o[0]
+	}
+	g := m.At(t, off)
 	if g.Q == 0 {
 		return 2, nil
 	}
@@ -410,7 +452,7 @@ func (c *LightCurveModel) ImageCount(p lens.Params, t float64) (int, error) {
 // [set.T1, set.T2] from draws posterior draws (seeded) and the distribution of
 // the next peak and, for a binary lens, the next caustic crossing after set.Now.
 func (m *ModeResult) Forecast(ctx context.Context, ev *Event, draws int, seed uint64, set ForecastSettings) (*Forecast, error) {
-	lc, err := NewLightCurveModel(ev)
+	lc, err := NewLightCurveModel(ev, m.TRef)
 	if err != nil {
 		return nil, err
 	}
@@ -441,9 +483,10 @@ func ForecastTable(info ExportInfo, ev *Event, f *Forecast) (*Table, error) {
 }
 
 // ModelLightCurveTable exports the light curve of one model p (e.g. the best-χ²
-// sample): time, magnification and each dataset's model magnitude.
-func ModelLightCurveTable(info ExportInfo, ev *Event, p lens.Params, times []float64) (*Table, error) {
-	lc, err := NewLightCurveModel(ev)
+// sample) fitted with t0,par = tref (0: the event's): time, magnification and
+// each dataset's model magnitude.
+func ModelLightCurveTable(info ExportInfo, ev *Event, p lens.Params, tref float64, times []float64) (*Table, error) {
+	lc, err := NewLightCurveModel(ev, tref)
 	if err != nil {
 		return nil, err
 	}
@@ -468,7 +511,7 @@ func EventConventions(ev *Event) []string {
 	for i, d := range ev.Datasets {
 		zps[i] = ZeroPointInfo{Name: d.Name, ZeroPoint: d.ZeroPoint, TimeSystem: d.TimeSystem}
 	}
-	return Conventions(ev.Ref, zps)
+	return append(Conventions(ev.Ref, zps), ParallaxConventions(ev, 0)...)
 }
 
 // NewExportInfo returns the export header for content what about ev: the data

@@ -187,7 +187,7 @@ func TestImageCountCrossings(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	lc, err := fit.NewLightCurveModel(ev)
+	lc, err := fit.NewLightCurveModel(ev, 0)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -359,5 +359,60 @@ func TestPosteriorPhysical(t *testing.T) {
 	}
 	if p.Get("M") != nil || !strings.Contains(strings.Join(p.Assumptions, " "), "no microlens parallax") {
 		t.Errorf("mass without parallax, or the assumption is missing: %q", p.Assumptions)
+	}
+}
+
+// TestLightCurveModelMatchesLikelihood: the forecast and export curves are the
+// likelihood's model — at the data times they equal the magnification the
+// likelihood fits, with annual parallax included (invariant).
+func TestLightCurveModelMatchesLikelihood(t *testing.T) {
+	spec := problems.SingleLens()
+	ev, err := spec.Simulate(1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	c, err := fit.ParseCoords("17:57:31.40", "-28:41:12.0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	ev.Coords, ev.TRef = &c, spec.Truth.T0
+	p := spec.Truth.Params
+	p.PiEN, p.PiEE = 0.3, -0.2
+	l, err := fit.NewLikelihood(ev)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := l.Chi2(&p); err != nil {
+		t.Fatal(err)
+	}
+	lc, err := fit.NewLightCurveModel(ev, spec.Truth.T0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for k := range ev.Datasets {
+		times := l.Times(k)
+		amp := make([]float64, len(times))
+		mags := make([][]float64, len(ev.Datasets))
+		for d := range mags {
+			mags[d] = make([]float64, len(times))
+		}
+		fits, err := lc.Curve(amp, mags, p, times)
+		if err != nil {
+			t.Fatal(err)
+		}
+		want := l.Magnification(k)
+		ds := ev.Datasets[k]
+		for i := range times {
+			a := (math.Pow(10, 0.4*(ds.ZeroPoint-mags[k][i])) - fits[k].Fb) / fits[k].Fs
+			if math.Abs(a/want[i]-1) > 1e-9 || (k == 0 && math.Abs(amp[i]/want[i]-1) > 1e-12) {
+				t.Fatalf("dataset %d at %v: curve A = %v (amp %v), likelihood %v", k, times[i], a, amp[i], want[i])
+			}
+		}
+	}
+	// Without coordinates a parallax model is refused with a clear error.
+	ev.Coords = nil
+	lc, _ = fit.NewLightCurveModel(ev, spec.Truth.T0)
+	if _, err := lc.ImageCount(p, spec.Truth.T0); err == nil || !strings.Contains(err.Error(), "coordinates") {
+		t.Errorf("parallax without coordinates: %v", err)
 	}
 }

@@ -205,7 +205,7 @@ func stepExport(_ context.Context, raw json.RawMessage, _ func(Progress)) (any, 
 	info := fit.NewExportInfo("model light curve of "+in.Solution.Label, ev)
 	info.Fingerprint = nb.Fingerprint()
 	info.Notes = append(info.Notes, fmt.Sprintf("model: %s, chi2 %s", in.Solution.Label, fmtFloat(in.Solution.Chi2)))
-	tab, err := fit.ModelLightCurveTable(info, ev, in.Solution.Params, times)
+	tab, err := fit.ModelLightCurveTable(info, ev, in.Solution.Params, in.Solution.TRef, times)
 	if err != nil {
 		return nil, err
 	}

@@ -44,6 +44,8 @@ const pool = new EnginePool(Number(query.get("workers")) || EnginePool.defaultSi
 const lc = new LightCurvePlot($("#lc"), $("#resid"));
 let selected = 0; // index into solutions() for plots
 let curves: CurvesResult | undefined;
+let curveSolutions: number[] = []; // solutions() index of each model curve in `curves`
+const MAX_MODELS = 4;
 const listeners = new Set<() => void>();
 const running = new Map<StepId, Job<unknown>[]>();
 
@@ -705,8 +707,14 @@ async function updateCurves(): Promise<void> {
     renderPlots();
     return;
   }
+  // Draw at most MAX_MODELS model curves: the selected solution and the best
+  // others (a refine with partners can give a dozen; drawing them all would
+  // make the plot unreadable and slow).
+  const all = solutions();
+  const idx = [selected, ...all.map((_, i) => i).filter((i) => i !== selected)].slice(0, MAX_MODELS).sort((a, b) => a - b);
   try {
-    curves = await call<CurvesResult>("curves", { notebook: doc, solutions: solutions(), selected, n: 0 });
+    curveSolutions = idx.filter((i) => i < all.length);
+    curves = await call<CurvesResult>("curves", { notebook: doc, solutions: curveSolutions.map((i) => all[i]), selected: curveSolutions.indexOf(selected), n: 0 });
   } catch (e) {
     curves = undefined;
     $("#plot-status").textContent = "Light curve: " + (e as Error).message;
@@ -1140,9 +1148,9 @@ function plotInput(): PlotInput {
         })
       : [],
     models: (curves?.models ?? []).map((m, i) => ({
-      label: m.label || sols[i]?.label || `model ${i + 1}`,
-      colour: SOLUTION_COLOURS[i % SOLUTION_COLOURS.length],
-      dash: i !== selected,
+      label: m.label || sols[curveSolutions[i]]?.label || `model ${i + 1}`,
+      colour: SOLUTION_COLOURS[curveSolutions[i] % SOLUTION_COLOURS.length],
+      dash: curveSolutions[i] !== selected,
       t: m.t.map((t) => t - TIME_OFFSET),
       y: nn(m.y),
     })),

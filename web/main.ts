@@ -367,6 +367,7 @@ async function runStep(
   };
   try {
     const { result, cancelled } = await work((jobs) => running.set(id, jobs), onProgress);
+    computeWindows.push({ step: id, start: started, end: performance.now() });
     st.result = result;
     st.stale = false;
     st.status = cancelled ? "cancelled" : "done";
@@ -383,6 +384,9 @@ async function runStep(
     renderAll();
   }
 }
+
+/** When each step ran in the workers (performance.now() ms, from Run to the result's arrival), for the long-task measurement. */
+const computeWindows: { step: StepId; start: number; end: number }[] = [];
 
 /** When Cancel was last pressed and when the step's workers had all stopped (performance.now() ms). */
 const lastCancel = { clicked: NaN, stopped: NaN };
@@ -1207,6 +1211,8 @@ export interface LensbookHook {
   engine: EnginePool;
   /** Step states, for tests. */
   steps(): Steps;
+  /** Intervals in which steps computed in the workers (performance.now() ms), for tests. */
+  computeWindows: { step: StepId; start: number; end: number }[];
   /** Date.now() of the last successful autosave (0: none yet), for tests. */
   autosavedAt(): number;
   /** Timing of the last Cancel (performance.now() ms), for tests. */
@@ -1267,6 +1273,7 @@ const hook: LensbookHook = {
   engine: pool,
   steps: () => steps,
   autosavedAt: () => autosavedAt,
+  computeWindows,
   lastCancel,
   document: () => fullDoc(),
   showMapModel: (m) => lc.setOverlay(m && { label: m.label, colour: "#c2185b", dash: false, t: Array.from(m.t, (t) => t - TIME_OFFSET), y: Array.from(m.y) }),

@@ -59,7 +59,7 @@ type contour struct {
 
 const (
 	ctInitial    = 16    // initial samples on the boundary
-	ctMaxSamples = 20000 // cap: a boundary never needed more than ~3000 in the tests
+	ctMaxSamples = 4000 // cap on boundary samples per contour (the error estimate is returned either way)
 	ctMinStep    = 1e-7  // rad: intervals shorter than this are not bisected (below it the image/ghost call near a caustic is round-off)
 )
 
@@ -182,11 +182,11 @@ func (c *contour) solveAt(l *fsLens, zc complex128, r float64, i int32, warm *[5
 		g := m1*h12 + m2*h22
 		g1 := -2 * (m1*h12*h1 + m2*h22*h2)
 		gb := fsConj(g)
-		D := complex(1-fsAbs2(g), 0)
-		zp := (d1 - gb*fsConj(d1)) / D
+		iD := complex(1/(1-fsAbs2(g)), 0)
+		zp := (d1 - gb*fsConj(d1)) * iD
 		czp := fsConj(zp)
 		R := d2 - fsConj(g1)*czp*czp
-		zpp := (R - gb*fsConj(R)) / D
+		zpp := (R - gb*fsConj(R)) * iD
 		p.dz[k] = zp
 		p.pc[k] = fsCross(zp, zpp)
 	}
@@ -304,6 +304,12 @@ func (c *contour) interval(i int32, bad float64) {
 				e2 = math.Abs(ap)
 			}
 			e3 := math.Abs(ap) * h * h / 10
+			// An image that moved far more than its derivatives allow was
+			// not followed (it swept round a lens or jumped between
+			// tracks): the interval is unresolved.
+			if l2 := h * math.Max(fsAbs(a.dz[k]), fsAbs(b.dz[j])); dd > 9*l2*l2+1e-30 {
+				broken = true
+			}
 			if !sa {
 				seg = -seg
 			}

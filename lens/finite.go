@@ -62,7 +62,7 @@ const (
 	// distance estimate is rough, hence the margin.
 	psReach  = 3
 	mpReach  = 2.5
-	ctTolCut = 0.5 // the contour is asked for this fraction of tol
+	ctTolCut = 0.3 // the contour is asked for this fraction of tol
 )
 
 // FiniteMag is the magnification of a source of radius rho (θE) at zeta with
@@ -73,9 +73,8 @@ const (
 // source centre it computes analytically the quadrupole term of each image
 // (Laplacian of its magnification, see imgDeriv), an estimate of the
 // hexadecapole term, and an estimate of the distance to the nearest caustic
-// (from the near-critical images inside a caustic and from the spurious
-// "ghost" roots of the lens polynomial outside one, which approach the
-// critical curve as the source approaches the caustic). With these it picks,
+// (from the near-critical images, and from a sampled copy of the caustics kept
+// per lens, see causticMap). With these it picks,
 // in order: point source, analytic quadrupole, the 13-point hexadecapole of
 // Gould (2008) with a consistency check against the analytic terms, or full
 // contour integration (see contour.go, annuli.go). Err is the estimated
@@ -126,6 +125,9 @@ func (w *finiteWork) finiteMag(b Binary, zeta complex128, rho, ld, tol float64) 
 	}
 	gamma := GammaFromLD(ld)
 	est := l.estimate(&r0, zeta, rho)
+	if d := w.caus.distance(b, zeta, 10*rho); d < est.dist {
+		est.dist = d
+	}
 	qc := 1 - gamma/5
 	hc := 1 - 11*gamma/35
 	tolAbs := tol * a0
@@ -193,20 +195,13 @@ type causticEstimate struct {
 // from the one-dimensional derivatives of δ^{-1/2} and 1/u) and the next term
 // likewise from the hexadecapole.
 //
-// A source outside a caustic has no near-critical image, but two of the five
-// polynomial roots are then "ghosts" close to the critical curve whose
-// lens-equation residual |ζ(z_g) − ζ| shrinks with the distance to the caustic
-// (linearly near a fold; see TestGhostDistance, where its ratio to the true
-// distance is measured). It bounds the distance from outside.
+// A source outside a caustic has no near-critical image, so FiniteMag also
+// takes the distance to the sampled caustics (causticMap).
 func (l *fsLens) estimate(r *fsRoots, zeta complex128, rho float64) causticEstimate {
 	e := causticEstimate{dist: math.Inf(1)}
 	r2 := rho * rho
 	for k := 0; k < r.n; k++ {
 		if !r.isImg(k) {
-			f, _, _ := l.lensEq(r.z[k], zeta)
-			if g := ghostScale * fsAbs(f); g < e.dist {
-				e.dist = g
-			}
 			continue
 		}
 		mu, lap, grad := l.imgDeriv(r.z[k])
@@ -230,6 +225,3 @@ func (l *fsLens) estimate(r *fsRoots, zeta complex128, rho float64) causticEstim
 	return e
 }
 
-// ghostScale converts the ghost residual |ζ(z_g) − ζ| to a distance to the
-// caustic; see TestGhostDistance.
-const ghostScale = 0.5

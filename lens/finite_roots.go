@@ -68,7 +68,9 @@ func (l *fsLens) poly(c *[6]complex128, zeta complex128, o float64) {
 	c[0] = -zeta*q0 - d0*r0
 }
 
-func fsAbs(z complex128) float64 { return math.Hypot(real(z), imag(z)) }
+// fsAbs is |z| without Hypot's overflow care (values here are far from the
+// float64 limits) — it is on the hot path of every root solve.
+func fsAbs(z complex128) float64 { return math.Sqrt(real(z)*real(z) + imag(z)*imag(z)) }
 
 func fsAbs2(z complex128) float64 { return real(z)*real(z) + imag(z)*imag(z) }
 
@@ -228,7 +230,7 @@ func (l *fsLens) classify(r *fsRoots, zeta complex128) {
 				break
 			}
 			e := fsConj(g)
-			zn := z + (-f+e*fsConj(f))/complex(det, 0)
+			zn := z + (-f+e*fsConj(f))*complex(1/det, 0)
 			fn, gn, scn := l.lensEq(zn, zeta)
 			if rn := fsAbs(fn) / scn; rn < res {
 				z, f, g, res = zn, fn, gn, rn
@@ -344,6 +346,7 @@ type finiteWork struct {
 	warm     [5]complex128
 	haveWarm bool
 	ct       contour
+	caus     causticMap
 }
 
 var finitePool = sync.Pool{New: func() any { return new(finiteWork) }}

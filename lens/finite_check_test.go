@@ -1,0 +1,169 @@
+package lens
+
+import (
+	"math/rand/v2"
+	"math"
+	"math/cmplx"
+	"testing"
+)
+
+// references.md §7 [G08]: s = 2, q = 1e-3, ρ = 0.002, uniform source; exact A
+// from Gauss–Legendre × trapezoid disk integration there (converged to ≤ 2e-7
+// for the fold cases, ≤ 6e-4 only for the 1.5ρ cusp case not used here).
+// Points are host-centred; the host sits at x = −0.001998002 in our frame.
+func TestReferenceSection7(t *testing.T) {
+	b := Binary{S: 2, Q: 1e-3}
+	host := -0.001998002
+	cases := []struct {
+		name       string
+		x, y, want float64
+	}{
+		{"outside fold 2ρ", 1.490559, 0.007464, 1.650913967},
+		{"inside fold 2ρ", 1.494990, 0.000803, 4.904472068},
+		{"cusp axis 3ρ", 1.475639, 0, 4.367879077},
+	}
+	s := NewSolver(b)
+	for _, c := range cases {
+		z := complex(c.x+host, c.y)
+		for _, tol := range []float64{1e-3, 1e-4} {
+			f, err := s.FiniteMag(z, 0.002, 0, tol)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if e := math.Abs(f.Mag/c.want - 1); e > tol {
+				t.Errorf("%s tol %g: %v A = %.9f, want %.9f (rel err %.2g)", c.name, tol, f.Method, f.Mag, c.want, e)
+			}
+		}
+		// Forced contour at a tight tolerance: the reference digits
+		// (the 6-digit rounding of the positions limits agreement to ~1e-5).
+		var w finiteWork
+		l := newFSLens(b)
+		f, ok := w.uniform(&l, z, 0.002, 1e-5, nil)
+		if !ok || math.Abs(f.Mag/c.want-1) > 2e-5 {
+			t.Errorf("%s contour: A = %.9f, want %.9f", c.name, f.Mag, c.want)
+		}
+	}
+	// [G08] excludes the cusp axis: the switch must not use an expansion there.
+	f, _ := s.FiniteMag(complex(1.475639+host, 0), 0.002, 0, 1e-3)
+	if f.Method != Contour {
+		t.Errorf("cusp axis 3ρ: method %v, want contour", f.Method)
+	}
+}
+
+// Single-lens limit: a far, very light companion (s = 30, q = 1e-9: its shear
+// on the host, γ = q/s² ≈ 1e-12, changes A by ~γ/u ≤ 1e-8 at u ≥ 1e-4) must give the uniform and limb-darkened
+// disk values of references.md §2b and §2c [WM94] (Γ = 0.5 ⇔ u = 0.6).
+func TestSingleLensLimit(t *testing.T) {
+	b := Binary{S: 30, Q: 1e-9}
+	host := -1e-9 * 30 / (1 + 1e-9)
+	s := NewSolver(b)
+	uni := map[float64][7]float64{ // §2b, u/ρ = 0, 0.5, 0.9, 1.0, 1.1, 2, 10
+		0.001: {2000.00024999998, 1868.43121146169, 1491.85141557427, 1273.23996914826, 1060.66595429363, 517.316582916364, 100.129225856417},
+		0.01:  {200.002499984375, 186.846052765956, 149.189037366505, 127.328198520453, 106.071118658773, 51.7393174618259, 10.0500545834360},
+		0.1:   {20.0249843945008, 18.7138909040741, 14.9577926795537, 12.7747522446476, 10.6522436428721, 5.25013019588946, 1.34307690356407},
+		1:     {2.23606797749979, 2.13919087496480, 1.83356178945694, 1.63661977236758, 1.44621149361980, 1.07664803565541, 1.00019600383241},
+	}
+	ld := map[float64][7]float64{ // §2c, Γ = 0.5
+		0.001: {2178.09748054, 1965.05083239, 1446.89375947, 1225.66881421, 1040.22967532, 515.478647060, 100.116651247},
+		0.01:  {217.812078962, 196.507907270, 144.693213239, 122.571032351, 104.027445638, 51.5555002778, 10.0487925225},
+		0.1:   {21.8045035637, 19.6790032910, 14.5076293178, 12.2985334850, 10.4474301141, 5.23152114519, 1.34293300328},
+		1:     {2.40137822137, 2.22709312343, 1.78532470731, 1.58664076128, 1.42398368388, 1.07491394112, 1.00019562938},
+	}
+	zs := [7]float64{0, 0.5, 0.9, 1.0, 1.1, 2, 10}
+	tols := []float64{1e-3, 1e-4}
+	if testing.Short() {
+		tols = tols[:1]
+	}
+	for _, tol := range tols {
+		for rho, row := range uni {
+			for i, zr := range zs {
+				if zr == 1 {
+					// The source limb exactly over the lens: the boundary
+					// passes through the companion's central caustic (size
+					// ~4q/s² = 4e-8) and the contour does not resolve it
+					// (known limitation, see the package report); u/ρ = 0.9
+					// and 1.1 bracket it.
+					continue
+				}
+				if zr == 0 {
+					zr = 1e-3 // the source exactly on the host is a degenerate polynomial; 1e-3ρ off changes A by < 1e-6ρ²
+				}
+				z := complex(host, 0) + cmplx.Rect(zr*rho, 0.7)
+				f, err := s.FiniteMag(z, rho, 0, tol)
+				if err != nil {
+					t.Fatal(err)
+				}
+				if e := math.Abs(f.Mag/row[i] - 1); e > tol {
+					t.Errorf("uniform ρ=%g u/ρ=%g tol %g: %v %.10g want %.10g (rel %.2g)", rho, zs[i], tol, f.Method, f.Mag, row[i], e)
+				}
+				g, err := s.FiniteMag(z, rho, 0.6, tol)
+				if err != nil {
+					t.Fatal(err)
+				}
+				if e := math.Abs(g.Mag/ld[rho][i] - 1); e > tol {
+					t.Errorf("LD ρ=%g u/ρ=%g tol %g: %v %.10g want %.10g (rel %.2g)", rho, zs[i], tol, g.Method, g.Mag, ld[rho][i], e)
+				}
+			}
+		}
+	}
+}
+
+// The analytic image derivatives of imgDeriv against central differences of
+// the point-source magnification (independent: only the lens equation).
+func TestImageDerivatives(t *testing.T) {
+	b := Binary{S: 1.2, Q: 0.01}
+	l := newFSLens(b)
+	var r fsRoots
+	for _, zeta := range []complex128{0.3 + 0.2i, -0.1 + 0.05i, 0.6 - 0.4i, 1.5 + 0.7i} {
+		if !l.solve(&r, zeta, nil) {
+			t.Fatal("solve")
+		}
+		// Sum over images of ∇²|μ| (= 4·lap) and the 5-point Laplacian.
+		lap := 0.0
+		for k := 0; k < r.n; k++ {
+			if r.isImg(k) {
+				_, lp, _ := l.imgDeriv(r.z[k])
+				lap += 4 * lp
+			}
+		}
+		h := 1e-4
+		m := func(z complex128) float64 {
+			var q fsRoots
+			l.solve(&q, z, &r.z)
+			return q.mag()
+		}
+		fd := (m(zeta+complex(h, 0)) + m(zeta-complex(h, 0)) + m(zeta+complex(0, h)) + m(zeta-complex(0, h)) - 4*m(zeta)) / (h * h)
+		if math.Abs(fd-lap) > 1e-4*math.Abs(lap)+1e-6 {
+			t.Errorf("ζ = %v: analytic ∇²A = %.8g, finite differences %.8g", zeta, lap, fd)
+		}
+	}
+}
+
+// TestCausticDistance checks the sampled caustic distance of the method
+// switch against the distance to a 14× denser sampling of the caustic (the
+// critical-curve quartic of finite_ref_test.go), at random points around the
+// caustics of several lenses: it must not overestimate the distance by more
+// than 1% of it plus 1e-6 θE.
+func TestCausticDistance(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 4))
+	worst := 0.0
+	for _, b := range []Binary{{2, 1e-3}, {1, 1}, {0.5, 1e-3}, {1.2, 0.3}, {2.5, 1e-5}, {0.9, 1e-5}} {
+		_, dense := fsCriticalPoints(b, 7200)
+		var c causticMap
+		for i := 0; i < 200; i++ {
+			zeta := dense[rng.IntN(len(dense))] + cmplx.Rect(0.01*rng.Float64()*rng.Float64(), 2*math.Pi*rng.Float64())
+			truth := math.Inf(1)
+			for _, p := range dense {
+				truth = math.Min(truth, fsAbs(p-zeta))
+			}
+			got := c.distance(b, zeta, 1)
+			if r := (got - truth) / (truth + 1e-6); r > worst {
+				worst = r
+			}
+			if got > 1.01*truth+1e-6 {
+				t.Errorf("b = %v ζ = %v: caustic distance %.4g, dense sampling %.4g", b, zeta, got, truth)
+			}
+		}
+	}
+	t.Logf("worst relative overestimate %.3g", worst)
+}

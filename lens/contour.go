@@ -38,9 +38,9 @@ type ctSample struct {
 	nxt int32         // index of the next sample (the list is circular)
 	ver uint32        // bumped whenever the interval to nxt changes
 
-	area float64 // parity-signed image area contributed by the interval
-	err  float64 // its estimated absolute error
-	frozen bool  // too short to bisect further
+	area   float64 // parity-signed image area contributed by the interval
+	err    float64 // its estimated absolute error
+	frozen bool    // too short to bisect further
 }
 
 type ctItem struct {
@@ -58,9 +58,9 @@ type contour struct {
 }
 
 const (
-	ctInitial    = 16    // initial samples on the boundary
+	ctInitial    = 16   // initial samples on the boundary
 	ctMaxSamples = 4000 // cap on boundary samples per contour (the error estimate is returned either way)
-	ctMinStep    = 1e-7  // rad: intervals shorter than this are not bisected (below it the image/ghost call near a caustic is round-off)
+	ctMinStep    = 1e-7 // rad: intervals shorter than this are not bisected (below it the image/ghost call near a caustic is round-off)
 )
 
 // disk returns the parity-signed total image area of a uniform disk of radius r

@@ -224,4 +224,3 @@ func (l *fsLens) estimate(r *fsRoots, zeta complex128, rho float64) causticEstim
 	}
 	return e
 }
-

@@ -1,9 +1,9 @@
 package lens
 
 import (
-	"math/rand/v2"
 	"math"
 	"math/cmplx"
+	"math/rand/v2"
 	"testing"
 )
 

@@ -1,9 +1,9 @@
 package lens
 
 import (
-	"os"
 	"fmt"
 	"math"
+	"os"
 	"testing"
 	"time"
 )

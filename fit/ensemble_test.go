@@ -137,7 +137,9 @@ func TestEnsembleRosenbrock(t *testing.T) {
 		steps, thin = 30000, 5
 	}
 	if testing.Short() && runtime.GOOS == "js" {
-		steps = 8000 // wasm runs several times slower; the native run is the long check
+		// τ ≈ 5000 steps here: a chain short enough for wasm is far too short
+		// for its MC error model (τ estimates from < 10τ are biased low).
+		t.Skip("Rosenbrock needs ≥ 30,000 steps (τ ≈ 5000); run natively")
 	}
 	start := Start{X: []float64{1, 1}, Spread: []float64{0.1, 0.1}}
 	c, err := RunEnsemble(context.Background(), EnsembleSettings{Walkers: 64, Steps: steps, Thin: thin, Seed: 7}, Target{LogDensity: rosenbrock}, start, nil)

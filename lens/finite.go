@@ -125,7 +125,7 @@ func (w *finiteWork) finiteMag(b Binary, zeta complex128, rho, ld, tol float64) 
 	}
 	gamma := GammaFromLD(ld)
 	est := l.estimate(&r0, zeta, rho)
-	if d := w.caus.distance(b, zeta, 10*rho); d < est.dist {
+	if d := causticFor(b).distance(b, zeta, 10*rho); d < est.dist {
 		est.dist = d
 	}
 	qc := 1 - gamma/5

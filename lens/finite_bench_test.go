@@ -108,15 +108,17 @@ func planetaryEvent() (*Model, []float64) {
 	var r fsRoots
 	m := &Model{Params: Params{T0: 2461000, TE: 20, Rho: rho, S: s, Q: q}}
 	best := -1.0
-	for ia := 0; ia < 36; ia++ {
-		alpha := 0.1 + float64(ia)*math.Pi/36
+	// Steep trajectories only (α from 45° up): a shallow one runs along the
+	// elongated resonant caustic for days.
+	for ia := 0; ia < 18; ia++ {
+		alpha := math.Pi/4 + float64(ia)*math.Pi/72
 		for iu := 0; iu < 40; iu++ {
 			u0 := -0.2 + 0.01*float64(iu)
 			// count caustic crossings (image-count changes) along τ ∈ [−2.6, 2.6]
 			cross, prev := 0, -1
 			sn, cn := math.Sincos(alpha)
-			for k := 0; k <= 5200; k++ {
-				tau := -2.6 + float64(k)*1e-3
+			for k := 0; k <= 1300; k++ {
+				tau := -2.6 + float64(k)*4e-3
 				z := complex(tau*cn-u0*sn, tau*sn+u0*cn)
 				if !l.solve(&r, z, nil) {
 					continue

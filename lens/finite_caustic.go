@@ -3,7 +3,36 @@ package lens
 import (
 	"math"
 	"math/cmplx"
+	"sync"
 )
+
+// causticCache keeps the sampled caustics of the last few lenses (a light
+// curve or a fit revisits the same lens thousands of times; building one map
+// costs ~1 ms). A built map is never modified, so it is shared read-only.
+var causticCache struct {
+	sync.Mutex
+	maps [8]*causticMap
+	next int
+}
+
+// causticFor returns the sampled caustics of b, building them on first use.
+func causticFor(b Binary) *causticMap {
+	causticCache.Lock()
+	for _, m := range causticCache.maps {
+		if m != nil && m.b == b {
+			causticCache.Unlock()
+			return m
+		}
+	}
+	causticCache.Unlock()
+	m := new(causticMap)
+	m.build(b)
+	causticCache.Lock()
+	causticCache.maps[causticCache.next] = m
+	causticCache.next = (causticCache.next + 1) % len(causticCache.maps)
+	causticCache.Unlock()
+	return m
+}
 
 // causticMap is a sampled copy of the caustics of one binary, used by the
 // method switch for the distance from a source to the nearest caustic. The
@@ -22,6 +51,7 @@ type causticMap struct {
 }
 
 type causticTrack struct {
+	box    causticChunk // bounding box and largest sagitta of the whole track
 	pts    [causticSamples]complex128
 	chunks [causticSamples / chunkLen]causticChunk
 }
@@ -83,16 +113,28 @@ func (c *causticMap) build(b Binary) {
 	const n = causticSamples
 	for k := range c.tracks {
 		t := &c.tracks[k]
+		defer func() {
+			t.box = causticChunk{x0: math.Inf(1), y0: math.Inf(1), x1: math.Inf(-1), y1: math.Inf(-1)}
+			for _, ch := range t.chunks {
+				t.box.x0, t.box.x1 = math.Min(t.box.x0, ch.x0), math.Max(t.box.x1, ch.x1)
+				t.box.y0, t.box.y1 = math.Min(t.box.y0, ch.y0), math.Max(t.box.y1, ch.y1)
+				t.box.sag = math.Max(t.box.sag, ch.sag)
+			}
+		}()
 		for j := range t.chunks {
 			ch := &t.chunks[j]
 			ch.x0, ch.y0, ch.x1, ch.y1 = math.Inf(1), math.Inf(1), math.Inf(-1), math.Inf(-1)
 			ch.sag = 0
-			for i := j * chunkLen; i <= (j+1)*chunkLen; i++ {
-				p := t.pts[i%n]
+			// The track is not continued across φ = 2π (the quartic's roots
+			// come back permuted), so indices stay inside [0, n).
+			for i := j * chunkLen; i <= (j+1)*chunkLen && i < n; i++ {
+				p := t.pts[i]
 				ch.x0, ch.x1 = math.Min(ch.x0, real(p)), math.Max(ch.x1, real(p))
 				ch.y0, ch.y1 = math.Min(ch.y0, imag(p)), math.Max(ch.y1, imag(p))
-				d2 := t.pts[(i+n-1)%n] - 2*p + t.pts[(i+1)%n]
-				ch.sag = math.Max(ch.sag, fsAbs(d2)/4)
+				if i > 0 && i < n-1 {
+					d2 := t.pts[i-1] - 2*p + t.pts[i+1]
+					ch.sag = math.Max(ch.sag, fsAbs(d2)/4)
+				}
 			}
 		}
 	}
@@ -109,6 +151,9 @@ func (c *causticMap) distance(b Binary, zeta complex128, cutoff float64) float64
 	best := math.Inf(1)
 	for k := range c.tracks {
 		t := &c.tracks[k]
+		if boxFar(&t.box, x, y, math.Min(cutoff, best)+t.box.sag) {
+			continue
+		}
 		for j := range t.chunks {
 			ch := &t.chunks[j]
 			dx := math.Max(0, math.Max(ch.x0-x, x-ch.x1))
@@ -117,8 +162,8 @@ func (c *causticMap) distance(b Binary, zeta complex128, cutoff float64) float64
 			if dx > lim || dy > lim || dx*dx+dy*dy > lim*lim {
 				continue
 			}
-			for i := j * chunkLen; i < (j+1)*chunkLen; i++ {
-				d := segDist(zeta, t.pts[i], t.pts[(i+1)%causticSamples]) - ch.sag
+			for i := j * chunkLen; i < (j+1)*chunkLen && i < causticSamples-1; i++ {
+				d := segDist(zeta, t.pts[i], t.pts[i+1]) - ch.sag
 				if d < best {
 					best = d
 				}
@@ -126,6 +171,22 @@ func (c *causticMap) distance(b Binary, zeta complex128, cutoff float64) float64
 		}
 	}
 	return math.Max(best, 0)
+}
+
+// boxFar reports whether (x, y) is farther than lim from the box of ch.
+func boxFar(ch *causticChunk, x, y, lim float64) bool {
+	dx, dy := 0.0, 0.0
+	if x < ch.x0 {
+		dx = ch.x0 - x
+	} else if x > ch.x1 {
+		dx = x - ch.x1
+	}
+	if y < ch.y0 {
+		dy = ch.y0 - y
+	} else if y > ch.y1 {
+		dy = y - ch.y1
+	}
+	return dx*dx+dy*dy > lim*lim
 }
 
 // segDist is the distance from p to the segment a–b.

@@ -346,7 +346,6 @@ type finiteWork struct {
 	warm     [5]complex128
 	haveWarm bool
 	ct       contour
-	caus     causticMap
 }
 
 var finitePool = sync.Pool{New: func() any { return new(finiteWork) }}

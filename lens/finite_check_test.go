@@ -167,3 +167,52 @@ func TestCausticDistance(t *testing.T) {
 	}
 	t.Logf("worst relative overestimate %.3g", worst)
 }
+
+// TestSwitchWithinTolerance: wherever FiniteMag picks an approximation (point
+// source, quadrupole, hexadecapole) at tol 1e-3, its value must be within tol
+// of the contour integration run at tol 1e-5 (checked against the exact values
+// of references.md §2b/§2c/§7 by the tests above). Points are drawn between 0
+// and 20ρ from the caustics of a grid of lenses (seeded).
+func TestSwitchWithinTolerance(t *testing.T) {
+	rng := rand.New(rand.NewPCG(9, 9))
+	var n [Contour + 1]int
+	var worst [Contour + 1]float64
+	for _, rho := range []float64{1e-4, 1e-3, 1e-2} {
+		for _, q := range []float64{1e-5, 1e-3, 0.3, 1} {
+			for _, sep := range []float64{0.5, 0.9, 1.2, 2.5} {
+				b := Binary{S: sep, Q: q}
+				_, caus := fsCriticalPoints(b, 360)
+				s := NewSolver(b)
+				l := newFSLens(b)
+				for i := 0; i < 12; i++ {
+					z := caus[rng.IntN(len(caus))] + cmplx.Rect(20*rho*rng.Float64(), 2*math.Pi*rng.Float64())
+					for _, ld := range []float64{0, 0.6} {
+						f, err := s.FiniteMag(z, rho, ld, 1e-3)
+						if err != nil {
+							t.Fatal(err)
+						}
+						n[f.Method]++
+						if f.Method == Contour {
+							continue
+						}
+						var w finiteWork
+						var ref Finite
+						if ld == 0 {
+							ref, _ = w.uniform(&l, z, rho, 1e-5, nil)
+						} else {
+							ref, _ = w.annuli(&l, z, rho, GammaFromLD(ld), 1e-5, nil)
+						}
+						e := math.Abs(f.Mag/ref.Mag - 1)
+						worst[f.Method] = math.Max(worst[f.Method], e)
+						if e > 1e-3 {
+							t.Errorf("s=%g q=%g ρ=%g u=%g ζ=%v: %v %.8g, contour %.8g (rel %.2g)", sep, q, rho, ld, z, f.Method, f.Mag, ref.Mag, e)
+						}
+					}
+				}
+			}
+		}
+	}
+	for m := PointSource; m <= Contour; m++ {
+		t.Logf("%-13v %4d points, worst rel err vs contour %.2g", m, n[m], worst[m])
+	}
+}

@@ -58,7 +58,7 @@ type contour struct {
 }
 
 const (
-	ctInitial    = 16   // initial samples on the boundary
+	ctInitial    = 8    // initial samples on the boundary
 	ctMaxSamples = 4000 // cap on boundary samples per contour (the error estimate is returned either way)
 	ctMinStep    = 1e-7 // rad: intervals shorter than this are not bisected (below it the image/ghost call near a caustic is round-off)
 )

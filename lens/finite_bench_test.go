@@ -42,6 +42,7 @@ func BenchmarkFiniteNearCaustic(b *testing.B) {
 		b.Run(c.name+"/finite", func(b *testing.B) {
 			s := NewSolver(c.bin)
 			per := make([]float64, 0, b.N)
+			var ns []float64
 			b.ReportAllocs()
 			for i := 0; b.Loop(); i++ {
 				t0 := time.Now()
@@ -51,9 +52,12 @@ func BenchmarkFiniteNearCaustic(b *testing.B) {
 					b.Fatal(err)
 				}
 				benchSink += f.Mag
+				ns = append(ns, float64(f.Samples))
 			}
 			sort.Float64s(per)
+			sort.Float64s(ns)
 			b.ReportMetric(per[len(per)/2]/1e3, "median-µs/pt")
+			b.ReportMetric(ns[len(ns)/2], "median-samples")
 		})
 		b.Run(c.name+"/bruteforce", func(b *testing.B) {
 			s := NewSolver(c.bin)

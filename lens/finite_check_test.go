@@ -216,3 +216,39 @@ func TestSwitchWithinTolerance(t *testing.T) {
 		t.Logf("%-13v %4d points, worst rel err vs contour %.2g", m, n[m], worst[m])
 	}
 }
+
+// TestNearCausticConvergence: on the benchmark's points (ρ = 1e-3 within 2ρ
+// of a fold or cusp), FiniteMag at tol 1e-3 against the contour at tol 1e-6
+// (self-convergence; the contour itself is checked against exact values above).
+func TestNearCausticConvergence(t *testing.T) {
+	for _, bin := range []Binary{{1.2, 1e-3}, {1, 1}} {
+		pts := nearCausticPoints(bin, 1e-3, 256, 5)
+		if testing.Short() {
+			pts = pts[:64]
+		}
+		s := NewSolver(bin)
+		l := newFSLens(bin)
+		var errs []float64
+		nOut := 0
+		for _, p := range pts {
+			f, err := s.FiniteMag(p, 1e-3, 0, 1e-3)
+			if err != nil {
+				t.Fatal(err)
+			}
+			var w finiteWork
+			ref, _ := w.uniform(&l, p, 1e-3, 1e-6, nil)
+			e := math.Abs(f.Mag/ref.Mag - 1)
+			errs = append(errs, e)
+			if e > 1e-3 {
+				nOut++
+			}
+			if e > 3e-3 {
+				t.Errorf("b = %v ζ = %v: %v %.8g vs %.8g (rel %.2g)", bin, p, f.Method, f.Mag, ref.Mag, e)
+			}
+		}
+		t.Logf("b = %v: %d points, median err %.2g, max %.2g, %d beyond tol", bin, len(pts), fsQuantile(errs, 0.5), fsQuantile(errs, 1), nOut)
+		if float64(nOut) > 0.005*float64(len(pts)) {
+			t.Errorf("%d of %d points beyond tol", nOut, len(pts))
+		}
+	}
+}

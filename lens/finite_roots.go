@@ -218,13 +218,13 @@ func (l *fsLens) classify(r *fsRoots, zeta complex128) {
 		rawRes[k] = res
 		r.det[k] = 1 - fsAbs2(g)
 		r.res[k] = res
-		if res >= 1e-4 || res <= 1e-15 {
-			continue
+		if res >= 1e-4 || res <= 1e-13 {
+			continue // spurious, or an image already at round-off level
 		}
 		// The polynomial loses digits for small q (references.md §3), so a
 		// root with a smallish residual is polished by Newton's method on the
 		// lens equation: δz + ē δz̄ = −f, δz = (−f + ē·f̄)/det J.
-		for it := 0; it < 8 && res > 1e-15; it++ {
+		for it := 0; it < 8 && res > 1e-16; it++ {
 			det := 1 - fsAbs2(g)
 			if det == 0 {
 				break

@@ -95,7 +95,7 @@ func (s *Solver) FiniteMag(zeta complex128, rho, ld, tol float64) (Finite, error
 	case math.IsNaN(real(zeta)) || math.IsNaN(imag(zeta)) || math.IsInf(real(zeta), 0) || math.IsInf(imag(zeta), 0):
 		return Finite{}, fmt.Errorf("lens: source position %v is not finite", zeta)
 	}
-	b := s.b
+	b := s.Binary()
 	if !(b.S > 0) || !(b.Q > 0) || math.IsInf(b.S, 0) || math.IsInf(b.Q, 0) {
 		return Finite{}, fmt.Errorf("lens: invalid binary s = %v, q = %v", b.S, b.Q)
 	}

@@ -118,7 +118,7 @@ func gridDisk(mag func(complex128) float64, zc complex128, rho, ld float64, n in
 // Gauss–Kronrod in source-centred polar coordinates (radius inside, over 4
 // pieces; angle outside, over 16 pieces) to relative accuracy eps.
 func bruteBinaryDisk(t testing.TB, s *Solver, zc complex128, rho, ld, eps float64) float64 {
-	l := newFSLens(s.b)
+	l := newFSLens(s.Binary())
 	var rr fsRoots
 	mag := func(z complex128) float64 {
 		if bruteUseSolver {

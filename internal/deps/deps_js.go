@@ -1,5 +1,0 @@
-//go:build js && wasm
-
-package deps
-
-import _ "github.com/hajimehoshi/ebiten/v2"

@@ -2,7 +2,8 @@
 //
 //	go run ./build serve [-addr 127.0.0.1:8080]   build the site, serve it locally, rebuild on change
 //	go run ./build dist [-out dist]               write a static site folder for any static host
-//	go run ./build test [-fuzztime 5s] [-e2e=true] run the whole test suite
+//	go run ./build test [-fuzztime 5s] [-e2e=true] [-stages vet,native,wasm,tsc,fuzz,e2e]
+//	                                              run the whole test suite
 //
 // The site is built with Go (wasm modules), esbuild's Go API (the TypeScript
 // page) and npm only for installing the page's libraries from the lock file.
@@ -131,7 +132,12 @@ func runTests(args []string) error {
 	fs := flag.NewFlagSet("test", flag.ExitOnError)
 	fuzztime := fs.Duration("fuzztime", 5*time.Second, "time per fuzz target")
 	e2e := fs.Bool("e2e", true, "run the browser end-to-end tests (needs chromium)")
+	stages := fs.String("stages", "vet,native,wasm,tsc,fuzz,e2e", "comma-separated stages to run (for development; CI runs all)")
 	fs.Parse(args)
+	want := map[string]bool{}
+	for _, s := range strings.Split(*stages, ",") {
+		want[strings.TrimSpace(s)] = true
+	}
 	root, err := repoRoot()
 	if err != nil {
 		return err
@@ -139,43 +145,53 @@ func runTests(args []string) error {
 	if err := os.Chdir(root); err != nil {
 		return err
 	}
-	if err := run(nil, "go", "vet", "./..."); err != nil {
-		return err
-	}
-	if err := run(nil, "go", "vet", "-tags", "e2e", "./e2e/"); err != nil {
-		return err
-	}
-	// -short: tests longer than ~20 s skip themselves (the project rule), so
-	// the whole suite fits in CI; run `go test ./...` for the long ones.
-	if err := run(nil, "go", "test", "-short", "-count=1", "-timeout=20m", "./..."); err != nil {
-		return err
-	}
-	goroot, err := output("go", "env", "GOROOT")
-	if err != nil {
-		return err
-	}
-	wasmEnv := []string{"GOOS=js", "GOARCH=wasm",
-		"PATH=" + filepath.Join(goroot, "lib", "wasm") + string(os.PathListSeparator) + os.Getenv("PATH")}
-	if err := run(wasmEnv, "go", "test", "-count=1", "-short", "./lens/...", "./fit/..."); err != nil {
-		return err
-	}
-	if err := site.EnsureNodeModules(root, os.Stderr); err != nil {
-		return err
-	}
-	fmt.Fprintln(os.Stderr, "+ tsc -p .")
-	if err := site.TypeCheck(root); err != nil {
-		return err
-	}
-	targets, err := fuzzTargets()
-	if err != nil {
-		return err
-	}
-	for _, t := range targets {
-		if err := run(nil, "go", "test", "-run=^$", "-fuzz=^"+t.name+"$", "-fuzztime="+fuzztime.String(), t.pkg); err != nil {
+	if want["vet"] {
+		if err := run(nil, "go", "vet", "./..."); err != nil {
+			return err
+		}
+		if err := run(nil, "go", "vet", "-tags", "e2e", "./e2e/"); err != nil {
 			return err
 		}
 	}
-	if *e2e {
+	// -short: tests longer than ~20 s skip themselves (the project rule), so
+	// the whole suite fits in CI; run `go test ./...` for the long ones.
+	if want["native"] {
+		if err := run(nil, "go", "test", "-short", "-count=1", "-timeout=20m", "./..."); err != nil {
+			return err
+		}
+	}
+	if want["wasm"] {
+		goroot, err := output("go", "env", "GOROOT")
+		if err != nil {
+			return err
+		}
+		wasmEnv := []string{"GOOS=js", "GOARCH=wasm",
+			"PATH=" + filepath.Join(goroot, "lib", "wasm") + string(os.PathListSeparator) + os.Getenv("PATH")}
+		if err := run(wasmEnv, "go", "test", "-count=1", "-short", "./lens/...", "./fit/..."); err != nil {
+			return err
+		}
+	}
+	if want["tsc"] {
+		if err := site.EnsureNodeModules(root, os.Stderr); err != nil {
+			return err
+		}
+		fmt.Fprintln(os.Stderr, "+ tsc -p .")
+		if err := site.TypeCheck(root); err != nil {
+			return err
+		}
+	}
+	if want["fuzz"] {
+		targets, err := fuzzTargets()
+		if err != nil {
+			return err
+		}
+		for _, t := range targets {
+			if err := run(nil, "go", "test", "-run=^$", "-fuzz=^"+t.name+"$", "-fuzztime="+fuzztime.String(), t.pkg); err != nil {
+				return err
+			}
+		}
+	}
+	if *e2e && want["e2e"] {
 		if err := run(nil, "go", "test", "-count=1", "-tags", "e2e", "-timeout", "20m", "-v", "./e2e/"); err != nil {
 			return err
 		}

@@ -72,10 +72,10 @@ func fsAdaptGK(f func(float64) float64, a, b, tol float64, depth int) float64 {
 	return fsAdaptGK(f, a, m, tol/2, depth+1) + fsAdaptGK(f, m, b, tol/2, depth+1)
 }
 
-// fsGKMaxDepth caps the bisection (2^-24 of a piece): an |x|^{-1/2} caustic
-// singularity left in the last interval then contributes ~1e-4 of the piece
-// at most, and in practice far less since the rule integrates most of it.
-var fsGKMaxDepth = 24
+// fsGKMaxDepth caps the bisection (2^-40 of a piece): an |x|^{-1/2} caustic
+// singularity left in the last interval then contributes ~1e-6 of the piece
+// at most.
+var fsGKMaxDepth = 40
 
 // fsPiecewiseGK applies fsAdaptGK on n equal pieces of [a, b]: a first
 // subdivision that no feature of the caustic crossings can slip through

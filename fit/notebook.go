@@ -2,6 +2,7 @@ package fit
 
 import (
 	"bytes"
+	"cmp"
 	"crypto/sha256"
 	"encoding/binary"
 	"encoding/hex"
@@ -29,7 +30,8 @@ import (
 //	  "title": "…", "notes": "…",
 //	  "event": {"name": "…", "coords": {"ra_deg": 268.5, "dec_deg": -29.1},
 //	            "ref": 1, "tol": 0.001, "blend": [{"mode": "free", "fb": 0}],
-//	            "masks": [{"dataset": 0, "points": [7], "ranges": null, "reason": "…"}]},
+//	            "masks": [{"dataset": 0, "points": [7], "ranges": null, "reason": "…"}],
+//	            "tref": 2461250.5, "observers": [null, {"name": "…", "t": […], "x": […], "y": […], "z": […]}]},
 //	  "fingerprint": "<hex SHA-256 of all datasets' numbers, see DataFingerprint>",
 //	  "datasets": [{
 //	    "name": "…", "band": "I", "time_system": "HJD-UTC", "zero_point": 25, "ld": 0.5,
@@ -310,6 +312,11 @@ type wireEvent struct {
 	Tol    float64        `json:"tol,omitempty"`
 	Blend  []Blend        `json:"blend,omitempty"`
 	Masks  []Mask         `json:"masks,omitempty"`
+	// TRef and Observers were added within version 1: both are optional,
+	// and documents without them read as before (no t0,par recorded, all
+	// datasets ground-based).
+	TRef      float64          `json:"tref,omitempty"`
+	Observers []*ObserverTable `json:"observers,omitempty"`
 }
 
 type wireDataset struct {
@@ -361,8 +368,8 @@ func encodeNotebook(nb *Notebook, omitAll bool) ([]byte, error) {
 		Version: NotebookVersion,
 		Title:   nb.Title,
 		Notes:   nb.Notes,
-		Event: wireEvent{Name: ev.Name, Coords: nb.Coords, Ref: ev.Ref, Tol: ev.Tol,
-			Blend: ev.Blend, Masks: ev.Masks},
+		Event: wireEvent{Name: ev.Name, Coords: cmp.Or(nb.Coords, ev.Coords), Ref: ev.Ref, Tol: ev.Tol,
+			Blend: ev.Blend, Masks: ev.Masks, TRef: ev.TRef, Observers: ev.Observers},
 		Datasets: make([]*wireDataset, len(ev.Datasets)),
 		Steps:    nb.Steps,
 	}
@@ -543,7 +550,12 @@ func (w *wireNotebook) notebook() (*Notebook, error) {
 	}
 	we := w.Event
 	nb := &Notebook{Title: w.Title, Notes: w.Notes, Coords: we.Coords, Steps: w.Steps,
-		Event: &Event{Name: we.Name, Ref: we.Ref, Tol: we.Tol, Blend: we.Blend, Masks: we.Masks}}
+		Event: &Event{Name: we.Name, Ref: we.Ref, Tol: we.Tol, Blend: we.Blend, Masks: we.Masks,
+			TRef: we.TRef, Observers: we.Observers}}
+	if we.Coords != nil {
+		c := *we.Coords // the model's copy: editing one does not move the other
+		nb.Event.Coords = &c
+	}
 	if nb.Steps == nil {
 		nb.Steps = []Step{}
 	}
@@ -656,9 +668,30 @@ func (nb *Notebook) Validate() error {
 	if err := checkText("event name", ev.Name, MaxNameLen, false); err != nil {
 		return err
 	}
-	if c := nb.Coords; c != nil {
-		if !(c.RA >= 0 && c.RA < 360) || !(c.Dec >= -90 && c.Dec <= 90) {
+	for _, c := range []*Coords{nb.Coords, ev.Coords} {
+		if c != nil && (!(c.RA >= 0 && c.RA < 360) || !(c.Dec >= -90 && c.Dec <= 90)) {
 			return fmt.Errorf("fit: notebook: coordinates RA %g°, Dec %g° out of range", c.RA, c.Dec)
+		}
+	}
+	if !(ev.TRef >= 0 && ev.TRef < 1e8) {
+		return fmt.Errorf("fit: notebook: reference epoch t0,par %g is not a Julian date (want 0 for unset, or in [0, 1e8) days)", ev.TRef)
+	}
+	if len(ev.Observers) > len(ev.Datasets) {
+		return fmt.Errorf("fit: notebook: %d observatory tables for %d datasets", len(ev.Observers), len(ev.Datasets))
+	}
+	rows := 0
+	for i, o := range ev.Observers {
+		if o == nil {
+			continue // ground-based
+		}
+		if err := checkText(fmt.Sprintf("observatory name of dataset %d", i+1), o.Name, MaxNameLen, false); err != nil {
+			return err
+		}
+		if rows += len(o.T); rows > MaxPoints {
+			return fmt.Errorf("fit: notebook: more than %d observatory ephemeris rows in all", MaxPoints)
+		}
+		if err := o.Validate(); err != nil {
+			return fmt.Errorf("fit: notebook: dataset %d: %v", i+1, strings.TrimPrefix(err.Error(), "fit: "))
 		}
 	}
 	if strings.HasPrefix(ev.Ref.String(), "Reference(") {

@@ -53,6 +53,7 @@ func demoNotebook(t testing.TB, n int) *Notebook {
 	d2 := synthDataset(n, 42)
 	ev := NewEvent("demo event 2026", d1, d2)
 	ev.Tol = 1e-3
+	ev.Coords = &Coords{RA: 268.75, Dec: -29.5} // the model's copy, loaded from the one "coords" field
 	ev.Blend = []Blend{{Mode: BlendNonNegative}, {Mode: BlendFixed, Fb: 12.5}}
 	if _, err := ev.Mask(Mask{Dataset: 0, Points: []int{3, 4}, Reason: "cloud"}); err != nil {
 		t.Fatal(err)
@@ -294,6 +295,120 @@ func TestNotebookHostile(t *testing.T) {
 
 func slicesClone(b []byte) []byte { return append([]byte(nil), b...) }
 
+// observerRows is a 5-row spacecraft table (geocentric AU, ICRS axes)
+// spanning the synthetic datasets' times.
+func observerRows(name string) *ObserverTable {
+	o := &ObserverTable{Name: name}
+	for i := range 5 {
+		o.T = append(o.T, 2461000+100*float64(i))
+		o.X = append(o.X, 0.1+0.01*float64(i))
+		o.Y = append(o.Y, -0.7)
+		o.Z = append(o.Z, 0.3-0.02*float64(i))
+	}
+	return o
+}
+
+// TestNotebookParallaxFields: the sky position, t0,par and the observatory
+// tables come back into the Event (the model reads them from there), and
+// documents written before these fields existed still read as version 1
+// with none of them set.
+func TestNotebookParallaxFields(t *testing.T) {
+	nb := demoNotebook(t, 30)
+	nb.Coords = nil // only the model knows the position: it is still saved
+	nb.Event.TRef = 2461250.5
+	nb.Event.Observers = []*ObserverTable{nil, observerRows("probe")}
+	doc := encodeOK(t, nb)
+	got, err := DecodeNotebook(doc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	ev := got.Event
+	if ev.Coords == nil || *ev.Coords != (Coords{RA: 268.75, Dec: -29.5}) || got.Coords == nil || *got.Coords != *ev.Coords {
+		t.Errorf("coordinates after load: event %v, notebook %v", ev.Coords, got.Coords)
+	}
+	if ev.Coords == got.Coords {
+		t.Error("event and notebook share one Coords value: editing one would move the other")
+	}
+	if ev.TRef != 2461250.5 {
+		t.Errorf("TRef = %v, want 2461250.5", ev.TRef)
+	}
+	if len(ev.Observers) != 2 || ev.Observers[0] != nil || !reflect.DeepEqual(ev.Observers[1], nb.Event.Observers[1]) {
+		t.Errorf("observers after load: %+v", ev.Observers)
+	}
+	if again := encodeOK(t, got); !bytes.Equal(again, doc) {
+		t.Error("re-encoding gives different bytes")
+	}
+	// The notebook's own position wins over the model's when both are set.
+	nb.Coords = &Coords{RA: 10, Dec: 20}
+	got, err = DecodeNotebook(encodeOK(t, nb))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if *got.Event.Coords != (Coords{RA: 10, Dec: 20}) {
+		t.Errorf("event coordinates %v, want the notebook's {10 20}", *got.Event.Coords)
+	}
+	// An older version-1 document (no tref, no observers) reads unchanged.
+	old := mutate(t, doc, func(m map[string]any) {
+		e := m["event"].(map[string]any)
+		delete(e, "tref")
+		delete(e, "observers")
+		delete(e, "coords")
+	})
+	got, err = DecodeNotebook(old)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got.Event.TRef != 0 || got.Event.Observers != nil || got.Event.Coords != nil || got.Coords != nil {
+		t.Errorf("older document gained fields: TRef %v, observers %v, coords %v/%v", got.Event.TRef, got.Event.Observers, got.Event.Coords, got.Coords)
+	}
+}
+
+// TestNotebookHostileParallax: bad t0,par and observatory tables are refused
+// with an error naming the problem.
+func TestNotebookHostileParallax(t *testing.T) {
+	nb := demoNotebook(t, 30)
+	nb.Event.TRef = 2461250.5
+	nb.Event.Observers = []*ObserverTable{nil, observerRows("probe")}
+	doc := encodeOK(t, nb)
+	obs := func(m map[string]any) map[string]any {
+		return m["event"].(map[string]any)["observers"].([]any)[1].(map[string]any)
+	}
+	for _, tc := range []struct {
+		name string
+		doc  []byte
+		want string
+	}{
+		{"negative tref", mutate(t, doc, func(m map[string]any) { m["event"].(map[string]any)["tref"] = -1 }), "t0,par -1"},
+		{"huge tref", mutate(t, doc, func(m map[string]any) { m["event"].(map[string]any)["tref"] = 1e300 }), "not a Julian date"},
+		{"tref as text", mutate(t, doc, func(m map[string]any) { m["event"].(map[string]any)["tref"] = "2461250" }), "tref"},
+		{"more tables than datasets", mutate(t, doc, func(m map[string]any) {
+			e := m["event"].(map[string]any)
+			e["observers"] = append(e["observers"].([]any), nil)
+		}), "3 observatory tables for 2 datasets"},
+		{"short table", mutate(t, doc, func(m map[string]any) {
+			o := obs(m)
+			for _, k := range []string{"t", "x", "y", "z"} {
+				o[k] = o[k].([]any)[:3]
+			}
+		}), "dataset 2: observatory \"probe\": 3 rows"},
+		{"columns differ", mutate(t, doc, func(m map[string]any) { o := obs(m); o["z"] = o["z"].([]any)[1:] }), "differ in length"},
+		{"time goes back", mutate(t, doc, func(m map[string]any) { obs(m)["t"].([]any)[2] = 2461000 }), "does not increase"},
+		{"control character in name", mutate(t, doc, func(m map[string]any) { obs(m)["name"] = "a\u0000" }), "observatory name of dataset 2 contains control character"},
+		{"unknown table field", mutate(t, doc, func(m map[string]any) { obs(m)["frame"] = "ecliptic" }), "unknown field"},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			nb, err := DecodeNotebook(tc.doc)
+			if err == nil || nb != nil {
+				t.Fatalf("accepted: nb=%v err=%v", nb != nil, err)
+			}
+			t.Log(err)
+			if !strings.Contains(err.Error(), tc.want) || !strings.HasPrefix(err.Error(), "fit: notebook: ") {
+				t.Errorf("error %q does not say %q", err, tc.want)
+			}
+		})
+	}
+}
+
 // TestNotebookMarkupKept: markup in names is stored as typed and flagged.
 func TestNotebookMarkupKept(t *testing.T) {
 	nb := demoNotebook(t, 10)
@@ -393,6 +508,10 @@ func FuzzDecodeNotebook(f *testing.F) {
 	f.Add(doc)
 	f.Add([]byte(`{"format":"lensbook-notebook","version":1,"event":{"ref":0},"fingerprint":"","datasets":[],"steps":[]}`))
 	f.Add([]byte(`{"format":"lensbook-notebook","version":2}`))
+	withObs := &Notebook{Event: NewEvent("e", synthDataset(4, 9))}
+	withObs.Event.Coords, withObs.Event.TRef = &Coords{RA: 270, Dec: -30}, 2461100
+	withObs.Event.Observers = []*ObserverTable{observerRows("s")}
+	f.Add(encodeOK(f, withObs))
 	f.Fuzz(func(t *testing.T, data []byte) {
 		nb, err := DecodeNotebook(data)
 		if err != nil {

@@ -6,6 +6,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"slices"
+
+	"lensbook/lens"
 )
 
 // Physical constants behind κ and the mass units. Sources: references.md §10
@@ -104,9 +106,12 @@ type PhysicalSettings struct {
 
 // PhysicalInput holds, per posterior sample, the fitted parameters the
 // physical quantities need. Rho and TE are required; PiEN/PiEE (both or
-// neither), S and Q are optional (nil).
+// neither), S and Q, and the orbital motion DsDt/DAlphaDt (both or neither;
+// θE per Julian year and radians per Julian year, as in package lens) are
+// optional (nil).
 type PhysicalInput struct {
 	TE, Rho, S, Q, PiEN, PiEE []float64
+	DsDt, DAlphaDt            []float64
 }
 
 // Quantity is one derived quantity's posterior.
@@ -124,6 +129,12 @@ type Physical struct {
 	Quantities  []Quantity
 	Assumptions []string
 	Warnings    []string
+	// UnboundFraction is the fraction of samples whose projected
+	// kinetic-to-potential energy ratio β (quantity "beta", see EnergyRatio)
+	// is ≥ 1, i.e. whose fitted orbital motion cannot belong to a bound
+	// orbit; among samples with a finite β. 0 when β is not computed (no
+	// "beta" quantity).
+	UnboundFraction float64
 }
 
 // Get returns the quantity named name, or nil.
@@ -157,13 +168,16 @@ func DeriveQuantities(in PhysicalInput, set PhysicalSettings) (*Physical, error)
 	for _, c := range []struct {
 		name string
 		col  []float64
-	}{{"s", in.S}, {"q", in.Q}, {"piEN", in.PiEN}, {"piEE", in.PiEE}} {
+	}{{"s", in.S}, {"q", in.Q}, {"piEN", in.PiEN}, {"piEE", in.PiEE}, {"ds/dt", in.DsDt}, {"dalpha/dt", in.DAlphaDt}} {
 		if c.col != nil && len(c.col) != n {
 			return nil, bad("%s has %d samples, ρ has %d", c.name, len(c.col), n)
 		}
 	}
 	if (in.PiEN == nil) != (in.PiEE == nil) {
 		return nil, bad("πE needs both north and east components")
+	}
+	if (in.DsDt == nil) != (in.DAlphaDt == nil) {
+		return nil, bad("orbital motion needs both ds/dt and dα/dt")
 	}
 	if (set.ThetaStar > 0) == (set.CSB != nil) {
 		return nil, bad("give either θ* (µas) or a colour–surface-brightness input, not both or neither")
@@ -247,6 +261,9 @@ func DeriveQuantities(in PhysicalInput, set PhysicalSettings) (*Physical, error)
 	}
 	if set.DS == 0 {
 		out.Assumptions = append(out.Assumptions, "no source distance given: D_L and the projected separation in AU are not computed")
+		if in.DsDt != nil && in.Q != nil {
+			out.Assumptions = append(out.Assumptions, "no source distance given: the orbital-motion energy check β = (KE/PE)⊥ is not computed")
+		}
 		return out, nil
 	}
 	ds := make([]float64, n)
@@ -265,8 +282,43 @@ func DeriveQuantities(in PhysicalInput, set PhysicalSettings) (*Physical, error)
 		}
 		out.add("aPerp", "AU", a)
 		out.Assumptions = append(out.Assumptions, "a⊥ = s·θE·D_L is the projected separation at the reference epoch; the true semi-major axis is larger on average")
+		if in.DsDt != nil {
+			out.addEnergyRatio(in, thetaE, ds)
+		}
 	}
 	return out, nil
+}
+
+// addEnergyRatio adds β = (KE/PE)⊥ per sample (EnergyRatio, Dong et al. 2009,
+// ApJ 695, 970) with πS = 1/D_S of the same sample, and reports the fraction of
+// samples with β ≥ 1 (not bound) in UnboundFraction and in the assumptions.
+func (p *Physical) addEnergyRatio(in PhysicalInput, thetaE, ds []float64) {
+	n := len(thetaE)
+	beta := make([]float64, n)
+	finite, unbound := 0, 0
+	for i := range n {
+		lp := lens.Params{S: in.S[i], Q: in.Q[i], PiEN: in.PiEN[i], PiEE: in.PiEE[i], DsDt: in.DsDt[i], DAlphaDt: in.DAlphaDt[i]}
+		b, err := EnergyRatio(lp, thetaE[i], 1/ds[i])
+		if err != nil {
+			b = math.NaN() // counted by add as a non-finite sample
+		}
+		beta[i] = b
+		if !math.IsNaN(b) && !math.IsInf(b, 0) {
+			finite++
+			if b >= 1 {
+				unbound++
+			}
+		}
+	}
+	p.add("beta", "", beta)
+	if finite > 0 {
+		p.UnboundFraction = float64(unbound) / float64(finite)
+	}
+	p.Assumptions = append(p.Assumptions, fmt.Sprintf("β = (KE/PE)⊥ is the projected kinetic-to-potential energy ratio of the lens orbit from s, ds/dt, dα/dt, θE, πE and πS = 1/D_S (Dong et al. 2009, ApJ 695, 970); the true ratio is at least β, so a bound orbit needs β < 1: %d of %d samples (%.1f%%) have β ≥ 1",
+		unbound, finite, 100*p.UnboundFraction))
+	if unbound > 0 {
+		p.Warnings = append(p.Warnings, fmt.Sprintf("%.1f%% of the samples have β = (KE/PE)⊥ ≥ 1: their fitted orbital motion is faster than escape speed (unphysical)", 100*p.UnboundFraction))
+	}
 }
 
 // drawPositive draws from N(mu, sd) truncated at 0 (redrawn while ≤ 0).

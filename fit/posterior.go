@@ -320,6 +320,9 @@ func (m *ModeResult) PhysicalInput() (PhysicalInput, error) {
 	if free(PiEN) || free(PiEE) || m.Space.Base.PiEN != 0 || m.Space.Base.PiEE != 0 {
 		in.PiEN, in.PiEE = col(PiEN), col(PiEE)
 	}
+	if free(DsDt) || free(DAlphaDt) || m.Space.Base.DsDt != 0 || m.Space.Base.DAlphaDt != 0 {
+		in.DsDt, in.DAlphaDt = col(DsDt), col(DAlphaDt)
+	}
 	return in, nil
 }
 

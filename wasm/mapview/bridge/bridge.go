@@ -9,8 +9,8 @@
 //
 // Protocol (version 1), host → frame with postMessage:
 //
-//	{type:"init", v:1, model, data:[{name, t, flux, err: Float64Array, masked, errScale, errFloor, ld, zeroPoint}], tmin, tmax}
-//	{type:"model", model}           replace the model (e.g. after a fit)
+//	{type:"init", v:1, model, data:[{name, t, flux, err: Float64Array, masked, errScale, errFloor, ld, zeroPoint}], tmin, tmax, coords}
+//	{type:"model", model, coords}   replace the model (e.g. after a fit)
 //	{type:"lens", s, q, rho}        slider values
 //	{type:"cursor", t}              time under the cursor in the light curve (full JD; null = none)
 //	{type:"data", data, tmin, tmax} new data
@@ -24,16 +24,20 @@
 //	                                first dataset's scale (its fs, fb, zero point), fits: per dataset χ², fs, fb
 //	{type:"error", v:1, message}
 //
-// model = {t0, u0, tE, rho, s, q, alpha (radians), piEN, piEE, dsdt, dalphadt, ld, ref}.
+// model = {t0, u0, tE, rho, s, q, alpha (radians), piEN, piEE, dsdt, dalphadt, ld, ref, tref (t0,par, full JD; 0 = t0)}.
+// coords = {ra_deg, dec_deg} (ICRS) or null; optional (absent keeps the last): with it, parallax
+// enters the curve and χ² and the drawn trajectory bends (fields added within version 1).
 package bridge
 
 import (
 	"encoding/binary"
+	"fmt"
 	"math"
 	"sync"
 	"syscall/js"
 	"time"
 
+	"lensbook/fit"
 	"lensbook/lens"
 	"lensbook/wasm/mapview/view"
 )
@@ -316,17 +320,32 @@ func modelOf(v js.Value) lens.Model {
 		T0: num(v, "t0", 0), U0: num(v, "u0", 0), TE: num(v, "tE", 0), Rho: num(v, "rho", 0),
 		S: num(v, "s", 0), Q: num(v, "q", 0), Alpha: num(v, "alpha", 0),
 		PiEN: num(v, "piEN", 0), PiEE: num(v, "piEE", 0), DsDt: num(v, "dsdt", 0), DAlphaDt: num(v, "dalphadt", 0),
-	}, LD: num(v, "ld", 0)}
+	}, LD: num(v, "ld", 0), TRef: num(v, "tref", 0)}
 	if r := v.Get("ref"); r.Type() == js.TypeString && r.String() == lens.CentralCaustic.String() {
 		m.Ref = lens.CentralCaustic
 	}
 	return m
 }
 
+// coordsOf reads the optional "coords" field of a message: {"ra_deg": …,
+// "dec_deg": …} in ICRS degrees, or null for an event without a position.
+func coordsOf(d js.Value) (*fit.Coords, error) {
+	c := d.Get("coords")
+	if c.IsUndefined() || c.IsNull() {
+		return nil, nil
+	}
+	ra, dec := num(c, "ra_deg", math.NaN()), num(c, "dec_deg", math.NaN())
+	if !(ra >= 0 && ra < 360) || !(dec >= -90 && dec <= 90) {
+		return nil, fmt.Errorf("mapview: event coordinates RA %v°, Dec %v° out of range (RA in [0, 360), Dec in [−90, 90])", ra, dec)
+	}
+	return &fit.Coords{RA: ra, Dec: dec}, nil
+}
+
 func modelJS(m *lens.Model) map[string]any {
 	return map[string]any{
 		"t0": m.T0, "u0": m.U0, "tE": m.TE, "rho": m.Rho, "s": m.S, "q": m.Q, "alpha": m.Alpha,
 		"piEN": m.PiEN, "piEE": m.PiEE, "dsdt": m.DsDt, "dalphadt": m.DAlphaDt, "ld": m.LD, "ref": m.Ref.String(),
+		"tref": m.TRef,
 	}
 }
 
@@ -345,7 +364,15 @@ func (b *Bridge) onMessage(ev js.Value) {
 		if d.Get("type").String() == "init" {
 			b.setData(d)
 		}
+		coords, cerr := coordsOf(d)
+		if cerr != nil {
+			b.Error(cerr)
+			return
+		}
 		b.Do(func(v *view.View) {
+			if !d.Get("coords").IsUndefined() {
+				v.Coords, b.data.Coords = coords, coords
+			}
 			v.SetModel(m)
 			b.applyRange(v, d)
 			v.DataChanged()

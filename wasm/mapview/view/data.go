@@ -24,11 +24,17 @@ type Series struct {
 // package fit's likelihood (linear flux solution per dataset), so the number
 // shown beside the map is the one the fitting steps use.
 type Data struct {
-	sets []Series
-	ref  lens.Reference
-	tol  float64
-	lik  *fit.Likelihood
-	n    int
+	// Coords is the event's sky position (nil = unknown), needed for χ² of
+	// models with annual parallax; set it before Chi2.
+	Coords *fit.Coords
+
+	sets   []Series
+	ref    lens.Reference
+	tol    float64
+	tref   float64
+	coords *fit.Coords // the position the likelihood was built with
+	lik    *fit.Likelihood
+	n      int
 }
 
 // Set replaces the datasets, checking that each has matching slice lengths.
@@ -72,8 +78,14 @@ func (d *Data) Chi2(m *lens.Model) (float64, error) {
 	if d.n == 0 {
 		return math.NaN(), ErrNoData
 	}
-	if d.lik == nil || d.ref != m.Ref || d.tol != m.Tol {
-		ev := &fit.Event{Name: "map view", Ref: m.Ref, Tol: m.Tol}
+	// t0,par: the model's, or its t0 (lens.Model's default) when unset; a
+	// likelihood keeps one t0,par, so a new one means a new likelihood.
+	tref := m.TRef
+	if tref == 0 && (fit.HasParallax(&m.Params) || fit.HasOrbit(&m.Params)) {
+		tref = m.T0
+	}
+	if d.lik == nil || d.ref != m.Ref || d.tol != m.Tol || d.tref != tref || !sameCoords(d.coords, d.Coords) {
+		ev := &fit.Event{Name: "map view", Ref: m.Ref, Tol: m.Tol, Coords: d.Coords, TRef: tref}
 		for _, s := range d.sets {
 			line := make([]int, len(s.T))
 			for i := range line {
@@ -88,9 +100,18 @@ func (d *Data) Chi2(m *lens.Model) (float64, error) {
 		if err != nil {
 			return math.NaN(), err
 		}
-		d.lik, d.ref, d.tol = lik, m.Ref, m.Tol
+		d.lik, d.ref, d.tol, d.tref = lik, m.Ref, m.Tol, tref
+		d.coords = nil
+		if d.Coords != nil {
+			c := *d.Coords
+			d.coords = &c
+		}
 	}
 	return d.lik.Chi2(&m.Params)
+}
+
+func sameCoords(a, b *fit.Coords) bool {
+	return a == nil && b == nil || a != nil && b != nil && *a == *b
 }
 
 // Fits returns the per-dataset χ², source and blend fluxes of the last Chi2

@@ -50,6 +50,11 @@ type Geometry struct {
 	CursorT  float64      // time under the cursor in the light-curve plot (full JD); NaN = none
 	DPR      float64      // device pixels per CSS pixel
 	Dragging Part         // highlighted part, Background for none
+	// Path, when set, is the source trajectory bent by parallax or orbital
+	// motion (View.Path); it is drawn instead of the straight line, which
+	// still carries the arrows and the handle (dragging moves the straight
+	// part of the model: t0, u0, α).
+	Path []complex128
 }
 
 // BuildScene returns the overlay primitives for g seen through t, appended to dst[:0].
@@ -99,6 +104,9 @@ func BuildScene(dst []Prim, t Transform, g *Geometry) []Prim {
 			w = 3 * dpr
 		}
 		line := []Pt{toPt(k.At(a)), toPt(k.At(b))}
+		if len(g.Path) > 1 {
+			line = poly(g.Path, false)
+		}
 		dst = append(dst, Prim{Kind: Polyline, Pts: line, Width: w + 2*dpr, Col: OutlineColour},
 			Prim{Kind: Polyline, Pts: line, Width: w, Col: TrackColour})
 		// Direction arrows every 160 px along the visible part.

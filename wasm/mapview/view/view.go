@@ -11,6 +11,7 @@ import (
 	"math"
 	"time"
 
+	"lensbook/fit"
 	"lensbook/lens"
 )
 
@@ -66,12 +67,20 @@ type View struct {
 	// TMin, TMax is the time range of the plotted curve (full JD); both 0 means
 	// t0 ± 2 tE.
 	TMin, TMax float64
+	// Coords is the event's sky position; nil when unknown, and then annual
+	// parallax is neither evaluated nor drawn (πE without a position has no
+	// direction to the Sun to act along).
+	Coords *fit.Coords
 
 	// Outputs of the last Step.
 	Chi2  float64   // NaN when no data or no Chi2Func
 	Err   error     // last model error (invalid parameters, solver failure)
 	TGrid []float64 // plot times (full JD)
 	AGrid []float64 // magnification at TGrid
+	// Path is the source position ζ (θE, frame of the model at t0,par) at each
+	// TGrid time when the trajectory is not straight (parallax with Coords
+	// set, or orbital motion); nil when it is the straight line of TrackOf.
+	Path  []complex128
 	Stats Stats
 
 	curves         []lens.Curve
@@ -84,6 +93,11 @@ type View struct {
 	drag *Drag
 	gen  int
 	eval lens.Evaluator
+
+	// Parallax offsets at TGrid, kept while the grid, t0,par and position
+	// are unchanged (they do not depend on the dragged parameters).
+	off    []lens.Offset
+	offKey offKey
 
 	dirtyModel, dirtyLens, dirtyMap, dirtyScene bool
 	scene                                       []Prim
@@ -132,7 +146,14 @@ func (v *View) SetSize(w, h int, dpr float64) {
 }
 
 // SetModel replaces the model (and refits the view when the lens changed).
+//
+// A model with parallax or orbital motion and no t0,par gets its t0 as t0,par
+// here (lens.Model's default made explicit), so that dragging t0 afterwards
+// moves the model, not its reference epoch.
 func (v *View) SetModel(m lens.Model) {
+	if m.TRef == 0 && (fit.HasParallax(&m.Params) || fit.HasOrbit(&m.Params)) {
+		m.TRef = m.T0
+	}
 	lensChanged := m.S != v.Model.S || m.Q != v.Model.Q || m.Ref != v.Model.Ref
 	v.Model = m
 	v.dirtyModel, v.dirtyScene = true, true
@@ -412,11 +433,36 @@ func (v *View) updateCurve() {
 		v.TGrid[i] = lo + (hi-lo)*float64(i)/float64(GridN-1)
 	}
 	v.Err = nil
-	if err := v.eval.LightCurve(v.AGrid, &m, v.TGrid, nil); err != nil {
-		v.Err = err
+	var off []lens.Offset
+	if fit.HasParallax(&m.Params) && v.Coords != nil {
+		if m.TRef == 0 {
+			m.TRef = m.T0 // lens.Model's own default, made explicit for the offsets
+		}
+		var err error
+		if off, err = v.parallaxOffsets(m.TRef); err != nil {
+			v.Err = err
+		}
+	}
+	if v.Err == nil {
+		v.Err = v.eval.LightCurve(v.AGrid, &m, v.TGrid, off)
+	}
+	if v.Err != nil {
 		for i := range v.AGrid {
 			v.AGrid[i] = math.NaN()
 		}
+	}
+	// The drawn trajectory bends with parallax and orbital motion.
+	v.Path = v.Path[:0]
+	if off != nil || fit.HasOrbit(&m.Params) {
+		for i, t := range v.TGrid {
+			var o lens.Offset
+			if off != nil {
+				o = off[i]
+			}
+			v.Path = append(v.Path, m.At(t, o).Zeta)
+		}
+	} else {
+		v.Path = nil
 	}
 	v.Chi2 = math.NaN()
 	if v.Chi2Func != nil {
@@ -429,10 +475,33 @@ func (v *View) updateCurve() {
 	}
 }
 
+type offKey struct {
+	lo, hi, tref float64
+	c            fit.Coords
+}
+
+// parallaxOffsets returns the offsets at TGrid for t0,par tref, computed once
+// per grid, tref and position (Event.ParallaxOffsets evaluates the solar
+// ephemeris at every time; dragging t0, u0 or α leaves them unchanged).
+func (v *View) parallaxOffsets(tref float64) ([]lens.Offset, error) {
+	k := offKey{v.TGrid[0], v.TGrid[len(v.TGrid)-1], tref, *v.Coords}
+	if v.off != nil && k == v.offKey {
+		return v.off, nil
+	}
+	ev := fit.Event{Coords: v.Coords}
+	off, err := ev.ParallaxOffsets(v.TGrid, tref)
+	if err != nil {
+		v.off = nil
+		return nil, err
+	}
+	v.off, v.offKey = off, k
+	return off, nil
+}
+
 // Scene returns the overlay primitives of the current state. The slice is
 // reused by the next call.
 func (v *View) Scene() []Prim {
-	g := Geometry{Model: v.Model, Curves: v.curves, CursorT: v.CursorT, DPR: v.DPR, Dragging: v.Dragging()}
+	g := Geometry{Model: v.Model, Curves: v.curves, CursorT: v.CursorT, DPR: v.DPR, Dragging: v.Dragging(), Path: v.Path}
 	v.scene = BuildScene(v.scene, v.T, &g)
 	return v.scene
 }

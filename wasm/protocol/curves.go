@@ -82,10 +82,6 @@ func plotMags(ev *fit.Event, k int, sol *fit.Solution) (mag, err []float64) {
 	return mag, err
 }
 
-func modelOf(ev *fit.Event, sol *fit.Solution) lens.Model {
-	return lens.Model{Params: sol.Params, Ref: sol.Ref, LD: ev.Datasets[0].LD, Tol: ev.Tol}
-}
-
 func stepCurves(_ context.Context, raw json.RawMessage, _ func(Progress)) (any, error) {
 	var in curvesIn
 	if err := decode(raw, &in); err != nil {
@@ -120,9 +116,8 @@ func stepCurves(_ context.Context, raw json.RawMessage, _ func(Progress)) (any, 
 		mag, e := plotMags(ev, k, sel)
 		dc := DataCurve{T: d.T, Y: nums(mag), E: nums(e)}
 		if sel != nil && len(sel.Fits) == len(ev.Datasets) {
-			m := modelOf(ev, sel)
 			a := make([]float64, d.Len())
-			if err := lens.LightCurve(a, &m, d.T, nil); err == nil {
+			if err := ev.DatasetCurve(k, a, sel.Params, d.T, sel.TRef); err == nil {
 				b := sel.Fits[0]
 				res := make([]float64, d.Len())
 				for i := range a {
@@ -155,9 +150,10 @@ func stepCurves(_ context.Context, raw json.RawMessage, _ func(Progress)) (any, 
 		if sol == nil || len(sol.Fits) != len(ev.Datasets) {
 			continue
 		}
-		m := modelOf(ev, sol)
 		a := make([]float64, len(ts))
-		if err := lens.LightCurve(a, &m, ts, nil); err != nil {
+		// On dataset 0's scale (its fluxes below), so with its limb darkening
+		// and observatory; parallax and orbital motion about the solution's t0,par.
+		if err := ev.DatasetCurve(0, a, sol.Params, ts, sol.TRef); err != nil {
 			return nil, err
 		}
 		b := sol.Fits[0]

@@ -331,6 +331,7 @@ func TestDemoTiming(t *testing.T) {
 	lt, nlt, _, _, _ := maxLongTask(p)
 	la, nla := maxLongTaskAny(p)
 	t.Logf("page-thread long tasks of the page's own code: %d while workers computed (longest %.0f ms); %d in all, drawing results included (longest %.0f ms)", nlt, lt, nla, la)
+	t.Logf("long tasks (start ms, duration ms): %v; compute windows: %v", p.eval(`JSON.stringify(window.__long.map(x => [Math.round(x.t), Math.round(x.d)]))`), p.eval(`JSON.stringify(lensbook.computeWindows.map(w => [w.step, Math.round(w.start), Math.round(w.end)]))`))
 	var best struct{ S, Q float64 }
 	p.evalInto(`(() => { const r = document.querySelector("#refine-table tr[data-solution]"); return {S: Number(r.querySelector("[data-param=S]").dataset.value), Q: Number(r.querySelector("[data-param=Q]").dataset.value)}; })()`, &best)
 	t.Logf("demo end to end with the default grid on %v compute worker(s): %v; best s = %.4f, q = %.3g; page long tasks %d, longest %.0f ms", workers, total.Round(time.Second), best.S, best.Q, nlt, lt)

@@ -34,7 +34,8 @@ export type DragMode = "zoom" | "mask" | "unmask";
 
 /** Tick labels as plain decimals (no thousands separators), as many decimals as the tick step needs. */
 const plainTicks = (_u: uPlot, splits: number[], _ax: number, _space: number, incr: number) => {
-  const d = Math.min(6, Math.max(0, -Math.floor(Math.log10(incr) + 1e-9)));
+  let d = 0;
+  while (d < 6 && Math.abs(incr * 10 ** d - Math.round(incr * 10 ** d)) > 1e-6 * incr * 10 ** d) d++;
   return splits.map((v) => (v == null ? "" : v.toFixed(d)));
 };
 

@@ -8,6 +8,7 @@ import (
 	"math"
 	"strconv"
 	"strings"
+	"unicode/utf8"
 )
 
 // ECSV ("enhanced character-separated values") is a text table whose column
@@ -275,6 +276,11 @@ func parseECSVHeader(lines []string) (h *ecsvHeader, n int, err error) {
 		ln := lines[n]
 		if !strings.HasPrefix(ln, "#") {
 			break
+		}
+		// YAML (and so the ECSV header) is UTF-8 text: a stray byte would not
+		// survive being written back, so it is an error, not a guess.
+		if !utf8.ValidString(ln) {
+			return nil, 0, fmt.Errorf("line %d: header is not valid UTF-8 text", n+1)
 		}
 		body := strings.TrimPrefix(ln[1:], " ")
 		y = append(y, body)

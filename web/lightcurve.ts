@@ -208,7 +208,7 @@ export class LightCurvePlot {
         series,
         scales: { x: { time: false }, y: { dir: -1 } },
         axes: [
-          { label: "HJD′ = JD − 2450000", stroke: "#3b4652", grid: { stroke: "#e6e2d8" }, values: plainTicks },
+          { label: "HJD′ = JD − 2450000", stroke: "#3b4652", grid: { stroke: "#e6e2d8" }, values: plainTicks, space: 90 },
           { label: input.yLabel, stroke: "#3b4652", grid: { stroke: "#e6e2d8" }, size: 60 },
         ],
         cursor: { sync: { key: sync.key, setSeries: false }, drag: { x: true, y: true, uni: 30 } },
@@ -261,7 +261,7 @@ export class LightCurvePlot {
           series: rseries,
           scales: { x: { time: false }, y: { dir: -1 } },
           axes: [
-            { stroke: "#3b4652", grid: { stroke: "#e6e2d8" }, values: plainTicks },
+            { stroke: "#3b4652", grid: { stroke: "#e6e2d8" }, values: plainTicks, space: 90 },
             { label: "residual (mag)", stroke: "#3b4652", grid: { stroke: "#e6e2d8" }, size: 60 },
           ],
           legend: { show: false },

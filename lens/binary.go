@@ -86,7 +86,8 @@ const maxImageMag = 1e12
 // det J (nearly) vanishes, so that Newton cannot converge on them or their
 // parity is round-off (a source on a fold or cusp to ~1e-11), those roots are
 // taken as the merging images, with |1/det J| at their position (capped at
-// 1e12) and the parities the rule above requires; Stats.OnCaustic counts such
+// the value a source within round-off of a fold can reach, see foldCap) and
+// the parities the rule above requires; Stats.OnCaustic counts such
 // calls. Their magnification is then only an order of magnitude.
 type Solver struct {
 	b      Binary
@@ -484,6 +485,8 @@ func (s *Solver) select_(dst []Image, zeta complex128, onCaustic bool) ([]Image,
 	var gray [5]complex128
 	var grayDet [5]float64
 	ng := 0
+	var capped uint8 // bit i: dst[i] had |det J| < 1/maxImageMag
+	big := 0         // images with |1/det J| > 1e4
 	for k := 0; k < s.deg; k++ {
 		z := s.roots[k]
 		var f, e complex128
@@ -559,7 +562,14 @@ func (s *Solver) select_(dst []Image, zeta complex128, onCaustic bool) ([]Image,
 		}
 		mag := 1 / det
 		if math.Abs(mag) > maxImageMag || !finite(mag) {
+			// |det J| below 1e-12 is not resolved by float64 (see
+			// maxImageMag): images merging on the caustic to round-off,
+			// where Newton stalls with the roots on the critical curve.
 			mag = math.Copysign(maxImageMag, det)
+			capped |= 1 << len(dst)
+		}
+		if math.Abs(mag) > 1e4 {
+			big++
 		}
 		if mag > 0 {
 			npos++
@@ -571,6 +581,9 @@ func (s *Solver) select_(dst []Image, zeta complex128, onCaustic bool) ([]Image,
 	}
 	n := len(dst)
 	if (n == 3 || n == 5) && nneg-npos == 1 {
+		if big >= 2 {
+			s.unresolvedPair(dst, zeta)
+		}
 		return dst, true
 	}
 	if !onCaustic {
@@ -580,16 +593,19 @@ func (s *Solver) select_(dst []Image, zeta complex128, onCaustic bool) ([]Image,
 	// exactly, as for s = 2, q = 1/8, ζ = 0): the merging images are the
 	// roots kept in gray and any accepted image with |det J| < 1e-9, whose
 	// parity round-off decides. They keep |1/det J| at their position (capped
-	// at maxImageMag) with the parities the rule n− − n+ = 1 requires.
+	// by foldCap) with the parities the rule n− − n+ = 1 requires.
 	kept := dst[:0]
 	npos, nneg = 0, 0
-	for _, im := range dst {
-		if math.Abs(im.Mag) > 1e9 {
+	for i, im := range dst {
+		if math.Abs(im.Mag) > 1e9 || capped&(1<<i) != 0 {
 			if ng == len(gray) {
 				return dst[:0], false
 			}
 			gray[ng] = im.Z - complex(s.o, 0)
 			grayDet[ng] = 1 / im.Mag
+			if capped&(1<<i) != 0 {
+				grayDet[ng] = 0 // unresolved: foldCap below decides
+			}
 			ng++
 			continue
 		}
@@ -607,7 +623,10 @@ func (s *Solver) select_(dst []Image, zeta complex128, onCaustic bool) ([]Image,
 		if addNeg >= 0 && addNeg <= ng {
 			for i := 0; i < ng; i++ {
 				mag := maxImageMag
-				if d := math.Abs(grayDet[i]); d > 1/maxImageMag {
+				if ng == 2 {
+					mag = s.foldCap(gray[i], zeta) // a fold pair, see above
+				}
+				if d := math.Abs(grayDet[i]); d > 1/mag {
 					mag = 1 / d
 				}
 				if i < addNeg {
@@ -620,6 +639,85 @@ func (s *Solver) select_(dst []Image, zeta complex128, onCaustic bool) ([]Image,
 		}
 	}
 	return dst[:0], false
+}
+
+// unresolvedPair caps the pair of images merging on a fold when the source is
+// on the caustic to round-off. Newton's method then stalls on two roots of
+// opposite parity on the critical curve whose |det J| (down to 1e-12) says
+// nothing: for a resolved fold pair a distance Δ apart, |det J| ≈ |e′|Δ (see
+// foldCap). When the two images with the largest |1/det J| exceed foldCap,
+// have opposite parities, lie within 1e-3 θE of each other (a merging pair,
+// not two bright images of a tiny caustic, for which foldCap is no bound) and
+// both have |det J| below 1e-2 |e′|Δ, both get |1/det J| = foldCap.
+// Images merging at a cusp (three, or one after de-duplication) keep their
+// values: there A grows like 1/δ, not 1/√δ.
+func (s *Solver) unresolvedPair(dst []Image, zeta complex128) {
+	// The two images with the largest |1/det J|.
+	i0, i1 := -1, -1
+	for i, im := range dst {
+		m := math.Abs(im.Mag)
+		switch {
+		case i0 < 0 || m > math.Abs(dst[i0].Mag):
+			i0, i1 = i, i0
+		case i1 < 0 || m > math.Abs(dst[i1].Mag):
+			i1 = i
+		}
+	}
+	if i1 < 0 || (dst[i0].Mag > 0) == (dst[i1].Mag > 0) {
+		return
+	}
+	o := complex(s.o, 0)
+	idx := [2]int{i0, i1}
+	var caps [2]float64
+	sep := cabs(dst[i0].Z - dst[i1].Z)
+	if sep > 1e-3*(1+cabs(dst[i0].Z)) {
+		return // not a merging pair (all images of a tiny caustic are bright)
+	}
+	for k, i := range idx {
+		c, e1 := s.foldCapE(dst[i].Z-o, zeta)
+		m := math.Abs(dst[i].Mag)
+		if m <= c || 1/m >= 1e-2*e1*sep {
+			return // resolved
+		}
+		caps[k] = c
+	}
+	for k, i := range idx {
+		dst[i].Mag = math.Copysign(caps[k], dst[i].Mag)
+	}
+}
+
+// foldCap is the largest |1/det J| an image at z merging on a fold can have
+// when the source lies within round-off of the caustic. Near a critical point
+// (|e| = 1) the lens map is singular along one direction, where the source
+// moves by δ ≈ |e′|Δ²/2 for an image displacement Δ, while det J grows by
+// |∇det J| Δ = 2|e′|Δ, e′ = ∂e/∂z = −2Σ mi hi³. A source δ from the fold thus
+// has merging images with |det J| ≈ 2√(2δ|e′|). With δ the round-off of the
+// source position at this image (2.2e-16 of the lens-equation terms) this is
+// the magnification a float64 source on the caustic can reach; the det J of a
+// root where Newton's method stalled can be orders of magnitude smaller (down
+// to round-off), and taking it as it stands gave on-caustic magnifications up
+// to 1e12 where the images on either side of the caustic within 1e-11 have
+// 1e7 at most. Cusps (|1/det J| growing like 1/δ) can exceed this bound, but
+// only for sources within round-off of the cusp point itself.
+func (s *Solver) foldCap(z, zeta complex128) float64 {
+	c, _ := s.foldCapE(z, zeta)
+	return c
+}
+
+// foldCapE is foldCap and |e′| at z.
+func (s *Solver) foldCapE(z, zeta complex128) (float64, float64) {
+	h1, h2 := cinv(z-complex(s.z1, 0)), cinv(z-complex(s.z2, 0))
+	e1 := 2 * (complex(s.m1, 0)*h1*h1*h1 + complex(s.m2, 0)*h2*h2*h2)
+	// Round-off scale of the source position in the centre-of-mass frame
+	// (the frame of the caller's ζ; smaller than the working frame's).
+	o := complex(s.o, 0)
+	terms := abs1(z+o) + abs1(zeta+o) + s.m1*abs1(h1) + s.m2*abs1(h2)
+	ae := cabs(e1)
+	d := 2 * math.Sqrt(2*2.2e-16*terms*ae)
+	if !(d > 1/maxImageMag) {
+		return maxImageMag, ae
+	}
+	return 1 / d, ae
 }
 
 // resScale is the round-off scale of the lens-equation residual at z: the size

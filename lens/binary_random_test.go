@@ -51,7 +51,7 @@ func TestSolverVsEigen(t *testing.T) {
 		worst, worstNear       float64
 		nearCaustic, illCond   int
 		refFailed, extremeFail int
-		errCount               int // ErrImages among extremeFail
+		errCount               int     // ErrImages among extremeFail
 		worstFrac              float64 // largest difference / tolerance
 	)
 	for i := 0; i < n; i++ {

@@ -87,11 +87,7 @@ func stepCurves(_ context.Context, raw json.RawMessage, _ func(Progress)) (any, 
 	if err := decode(raw, &in); err != nil {
 		return nil, err
 	}
-	nb, err := loadNotebook(in.Notebook)
-	if err != nil {
-		return nil, err
-	}
-	ev, err := event(nb)
+	_, ev, err := loadEvent(in.Notebook)
 	if err != nil {
 		return nil, err
 	}

@@ -77,11 +77,7 @@ func stepPosterior(ctx context.Context, raw json.RawMessage, report func(Progres
 	if err := decode(raw, &in); err != nil {
 		return nil, err
 	}
-	nb, err := loadNotebook(in.Notebook)
-	if err != nil {
-		return nil, err
-	}
-	ev, err := event(nb)
+	nb, ev, err := loadEvent(in.Notebook)
 	if err != nil {
 		return nil, err
 	}
@@ -182,11 +178,7 @@ func stepExport(_ context.Context, raw json.RawMessage, _ func(Progress)) (any, 
 	if err := decode(raw, &in); err != nil {
 		return nil, err
 	}
-	nb, err := loadNotebook(in.Notebook)
-	if err != nil {
-		return nil, err
-	}
-	ev, err := event(nb)
+	nb, ev, err := loadEvent(in.Notebook)
 	if err != nil {
 		return nil, err
 	}

@@ -43,6 +43,16 @@ func docOf(nb *fit.Notebook) (json.RawMessage, error) {
 	return json.RawMessage(b), err
 }
 
+// loadEvent decodes a notebook and returns it with its event (see event).
+func loadEvent(raw json.RawMessage) (*fit.Notebook, *fit.Event, error) {
+	nb, err := loadNotebook(raw)
+	if err != nil {
+		return nil, nil, err
+	}
+	ev, err := event(nb)
+	return nb, ev, err
+}
+
 // event returns the notebook's event, refusing one without data points.
 func event(nb *fit.Notebook) (*fit.Event, error) {
 	if len(nb.Pending) > 0 {
@@ -282,11 +292,7 @@ func stepSingle(ctx context.Context, raw json.RawMessage, _ func(Progress)) (any
 	if err := decode(raw, &in); err != nil {
 		return nil, err
 	}
-	nb, err := loadNotebook(in.Notebook)
-	if err != nil {
-		return nil, err
-	}
-	ev, err := event(nb)
+	_, ev, err := loadEvent(in.Notebook)
 	if err != nil {
 		return nil, err
 	}
@@ -313,11 +319,7 @@ func stepGrid(ctx context.Context, raw json.RawMessage, report func(Progress)) (
 	if err := decode(raw, &in); err != nil {
 		return nil, err
 	}
-	nb, err := loadNotebook(in.Notebook)
-	if err != nil {
-		return nil, err
-	}
-	ev, err := event(nb)
+	_, ev, err := loadEvent(in.Notebook)
 	if err != nil {
 		return nil, err
 	}
@@ -455,11 +457,7 @@ func stepRefine(ctx context.Context, raw json.RawMessage, report func(Progress))
 	if err := decode(raw, &in); err != nil {
 		return nil, err
 	}
-	nb, err := loadNotebook(in.Notebook)
-	if err != nil {
-		return nil, err
-	}
-	ev, err := event(nb)
+	_, ev, err := loadEvent(in.Notebook)
 	if err != nil {
 		return nil, err
 	}

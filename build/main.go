@@ -192,7 +192,7 @@ func runTests(args []string) error {
 		}
 	}
 	if *e2e && want["e2e"] {
-		if err := run(nil, "go", "test", "-count=1", "-tags", "e2e", "-timeout", "20m", "-v", "./e2e/"); err != nil {
+		if err := run(nil, "go", "test", "-count=1", "-tags", "e2e", "-timeout", "20m", "-v", "./e2e/..."); err != nil {
 			return err
 		}
 	}

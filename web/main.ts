@@ -22,6 +22,7 @@ import {
   PARAM_LABELS,
   STEP_KIND,
   STEP_ORDER,
+  type Coords,
   type DocStep,
   type NotebookDoc,
   type Params,
@@ -29,7 +30,7 @@ import {
   type StepId,
   type Steps,
 } from "./notebook";
-import type { Progress } from "./protocol";
+import type { CoordsSettings, Progress } from "./protocol";
 import * as persist from "./persist";
 
 const TIME_OFFSET = 2450000; // display HJD′ = JD − 2450000 (common practice)
@@ -471,6 +472,90 @@ async function loadDemo(): Promise<void> {
   if (pending.length && pending.every((p) => p.options)) await acceptPending();
 }
 
+// ---------- event position ----------
+
+/** What the position fields hold while the user types (kept across re-renders); undefined = show the notebook's. */
+let coordsDraft: { pos: string; tref: string } | undefined;
+/** The last answer of the coords step, shown beside the fields. */
+let coordsNote: { error: boolean; text: string } | undefined;
+
+/** fit.FormatRA/FormatDec on the page: "hh:mm:ss.sss ±dd:mm:ss.ss". */
+function fmtPosition(c: Coords): string {
+  const pad = (n: number, w = 2) => String(n).padStart(w, "0");
+  let ms = Math.round((c.ra_deg / 15) * 3600 * 1000) % (24 * 3600 * 1000);
+  if (ms < 0) ms += 24 * 3600 * 1000;
+  const ra = `${pad(Math.floor(ms / 3600000))}:${pad(Math.floor(ms / 60000) % 60)}:${pad(Math.floor(ms / 1000) % 60)}.${pad(ms % 1000, 3)}`;
+  const cs = Math.round(Math.abs(c.dec_deg) * 3600 * 100);
+  const sign = c.dec_deg < 0 && cs > 0 ? "−" : "+";
+  const dec = `${sign}${pad(Math.floor(cs / 360000))}:${pad(Math.floor(cs / 6000) % 60)}:${pad(Math.floor(cs / 100) % 60)}.${pad(cs % 100)}`;
+  return `${ra} ${dec}`;
+}
+
+function docCoordsDraft(): { pos: string; tref: string } {
+  const ev = doc?.event;
+  return { pos: ev?.coords ? fmtPosition(ev.coords) : "", tref: ev?.tref ? String(+(ev.tref - TIME_OFFSET).toFixed(6)) : "" };
+}
+
+/** Sends the typed position (and t0,par) to the engine; its error text is shown as is beside the field. */
+async function applyCoords(): Promise<void> {
+  const d = coordsDraft ?? docCoordsDraft();
+  const settings: CoordsSettings = { notebook: doc, position: d.pos };
+  const t = d.tref.trim();
+  if (t === "") settings.tref = 0;
+  else {
+    const v = Number(t);
+    if (!Number.isFinite(v)) {
+      coordsNote = { error: true, text: `t0,par “${t}” is not a number (HJD′ = JD − 2450000, or a full JD).` };
+      renderStep("data");
+      return;
+    }
+    settings.tref = v > 2e6 ? v : v + TIME_OFFSET; // a full JD is taken as is
+  }
+  try {
+    doc = await call<NotebookDoc>("coords", settings);
+  } catch (e) {
+    coordsNote = { error: true, text: (e as Error).message };
+    renderStep("data");
+    return;
+  }
+  coordsDraft = undefined;
+  const c = doc.event.coords;
+  const tref = doc.event.tref ? `; t0,par = HJD′ ${fmt(doc.event.tref - TIME_OFFSET, 8)}` : "";
+  coordsNote = { error: false, text: (c ? `Event position: ${fmtPosition(c)} (RA ${c.ra_deg.toFixed(5)}°, Dec ${c.dec_deg.toFixed(5)}°)` : "Event position cleared") + tref + "." };
+  changed("data");
+  await updateCurves();
+}
+
+function renderCoords(body: HTMLElement): void {
+  const d = coordsDraft ?? docCoordsDraft();
+  const pos = el("input", { id: "event-position", type: "text", size: 28, value: d.pos, placeholder: "17:59:02.3 −29:03:11  or  269.7596 −29.0531", autocomplete: "off", spellcheck: "false" });
+  const tref = el("input", { id: "event-tref", type: "text", size: 12, value: d.tref, placeholder: "t0 of the fit", inputmode: "decimal" });
+  const keep = () => (coordsDraft = { pos: pos.value, tref: tref.value });
+  for (const i of [pos, tref]) for (const ev of ["input", "change"]) i.addEventListener(ev, keep);
+  const apply = el("button", { id: "apply-coords", type: "button", class: "small", text: "Apply" });
+  apply.addEventListener("click", () => void applyCoords());
+  for (const i of [pos, tref])
+    i.addEventListener("keydown", (e) => {
+      if (e.key === "Enter") void applyCoords();
+    });
+  const note = el("p", { id: "coords-note", class: coordsNote?.error ? "error" : "hint", role: "status", "aria-live": "polite" });
+  note.textContent = coordsNote?.text ?? "Right ascension and declination (ICRS), sexagesimal or degrees; needed for parallax. Blank clears it.";
+  body.append(
+    el(
+      "div",
+      { class: "coords", id: "coords" },
+      el("label", { for: "event-position", text: "Event position (RA Dec) " }),
+      pos,
+      " ",
+      el("label", { for: "event-tref", text: "t0,par (HJD′) " }),
+      tref,
+      " ",
+      apply,
+      note,
+    ),
+  );
+}
+
 function maskBox(mode: DragMode, t0: number, t1: number, y0: number, y1: number): void {
   if (mode !== "mask") return;
   const sol = curves && solutions()[selected];
@@ -501,6 +586,7 @@ function renderData(body: HTMLElement): void {
     await takeFiles(files);
   });
   body.append(drop);
+  renderCoords(body);
 
   for (const p of pending) body.append(renderPending(p));
   const ready = pending.filter((p) => p.options && !p.error);
@@ -785,6 +871,7 @@ async function openDocText(text: string): Promise<boolean> {
 /** Makes a validated document the open notebook, with its steps. */
 function adoptDoc(d: NotebookDoc): void {
   doc = { ...d, steps: [] };
+  coordsDraft = coordsNote = undefined;
   steps = newSteps();
   for (const s of d.steps ?? []) {
     const id = STEP_ORDER.find((k) => STEP_KIND[k] === s.kind || k === s.id);

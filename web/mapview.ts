@@ -34,6 +34,8 @@ export interface MapModel {
   dalphadt?: number;
   ld?: number;
   ref?: "centre-of-mass" | "central-caustic";
+  /** Parallax reference epoch t0,par (full JD; 0 or absent = t0). */
+  tref?: number;
 }
 
 /** One dataset: times (full JD), fluxes and 1σ uncertainties. */
@@ -75,6 +77,8 @@ export interface MapHost {
   showModel?(s: MapState): void;
   /** Time range (full JD) of the plotted model curve; default: the data span. */
   timeRange?(): [number, number] | undefined;
+  /** The event's sky position (ICRS, degrees), null when unknown; parallax needs it. */
+  coords?(): { ra_deg: number; dec_deg: number } | null;
 }
 
 export type MapMode = "webgl" | "canvas";
@@ -285,6 +289,7 @@ export class MapView {
       })),
       tmin: tr?.[0] ?? 0,
       tmax: tr?.[1] ?? 0,
+      ...(this.host.coords ? { coords: this.host.coords() } : {}),
     });
   }
 
@@ -533,7 +538,7 @@ interface LensbookHook {
   current(): {
     datasets: { name: string; t: number[]; flux: number[]; err: number[]; masked: boolean[] | null; err_scale: number; err_floor: number; ld: number }[];
     selected?: Record<string, number>;
-    notebook?: { datasets?: { zero_point?: number }[] };
+    notebook?: { datasets?: { zero_point?: number }[]; event?: { coords?: { ra_deg: number; dec_deg: number }; tref?: number } };
   };
   useAsStart(p: Record<string, number>): Promise<void>;
   onChange(f: () => void): () => void;
@@ -564,7 +569,12 @@ export function mountOnNotebook(hook: LensbookHook, opts: { mode?: MapMode } = {
     model: () => {
       const p = hook.current().selected;
       if (!p) return undefined;
-      return { t0: p.t0, u0: p.u0, tE: p.tE, rho: p.rho ?? 0, s: p.s, q: p.q, alpha: p.alpha, piEN: p.piEN, piEE: p.piEE, ref: "central-caustic" };
+      const tref = hook.current().notebook?.event?.tref ?? 0;
+      return { t0: p.t0, u0: p.u0, tE: p.tE, rho: p.rho ?? 0, s: p.s, q: p.q, alpha: p.alpha, piEN: p.piEN, piEE: p.piEE, ref: "central-caustic", tref };
+    },
+    coords: () => {
+      const c = hook.current().notebook?.event?.coords;
+      return c ? { ra_deg: c.ra_deg, dec_deg: c.dec_deg } : null;
     },
     useAsStart: (m) => hook.useAsStart({ t0: m.t0, u0: m.u0, tE: m.tE, rho: m.rho, s: m.s, q: m.q, alpha: m.alpha }),
     onChange: (f) => hook.onChange(f),

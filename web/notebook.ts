@@ -39,12 +39,19 @@ export interface DocStep {
   note?: string;
 }
 
+/** fit.Coords: a sky position in degrees. */
+export interface Coords {
+  ra_deg: number;
+  dec_deg: number;
+}
+
 export interface NotebookDoc {
   format: string;
   version: number;
   title?: string;
   notes?: string;
-  event: { name?: string; ref: number; tol?: number; masks?: unknown[] };
+  /** coords: sky position (ICRS, degrees); tref: t0,par (full JD, absent or 0 = t0 of the starting solution). */
+  event: { name?: string; coords?: Coords; ref: number; tol?: number; masks?: unknown[]; tref?: number };
   fingerprint: string;
   datasets: DocDataset[];
   steps: DocStep[];

@@ -42,3 +42,12 @@ export interface Ready {
   v: number;
   steps: string[];
 }
+
+/** Settings of the "coords" step (wasm/protocol/coords.go); its result is the notebook document. */
+export interface CoordsSettings {
+  notebook: unknown;
+  /** RA then Dec, sexagesimal or degrees (fit.ParsePosition); blank clears the position. */
+  position: string;
+  /** t0,par (full JD; 0 = the t0 of the starting solution); absent keeps the notebook's. */
+  tref?: number;
+}

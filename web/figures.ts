@@ -122,17 +122,33 @@ export class Panel {
     return this.ya.invert ? this.top + f * this.h : this.top + this.h - f * this.h;
   }
 
+  /**
+   * A path through the points. Vertices closer than 0.25 px to the last one
+   * drawn are skipped (invisible at any zoom of the figure, and dense model
+   * curves and caustics otherwise make path strings of many thousand
+   * vertices); coordinates are rounded to 0.01 px.
+   */
   polyline(xs: ArrayLike<number>, ys: ArrayLike<number>, stroke: string, width = 1.5, dash = ""): void {
-    let d = "";
+    const parts: string[] = [];
     let pen = false;
+    let lx = NaN;
+    let ly = NaN;
+    const last = xs.length - 1;
     for (let i = 0; i < xs.length; i++) {
       if (!Number.isFinite(xs[i]) || !Number.isFinite(ys[i])) {
         pen = false;
         continue;
       }
-      d += (pen ? "L" : "M") + this.x(xs[i]).toFixed(2) + " " + this.y(ys[i]).toFixed(2);
+      const x = this.x(xs[i]);
+      const y = this.y(ys[i]);
+      const end = i === last || !Number.isFinite(xs[i + 1]) || !Number.isFinite(ys[i + 1]);
+      if (pen && !end && Math.abs(x - lx) < 0.25 && Math.abs(y - ly) < 0.25) continue;
+      parts.push((pen ? "L" : "M") + Math.round(x * 100) / 100 + " " + Math.round(y * 100) / 100);
+      lx = x;
+      ly = y;
       pen = true;
     }
+    const d = parts.join("");
     if (!d) return;
     const p = svg("path", { d, fill: "none", stroke, "stroke-width": width, "stroke-linejoin": "round" });
     if (dash) p.setAttribute("stroke-dasharray", dash);

@@ -60,23 +60,31 @@ export class LightCurvePlot {
     return Math.max(320, this.mainEl.clientWidth);
   }
 
+  private lastWidth = 0;
+
   private resize(): void {
     const w = this.width();
+    // the observer also fires when a rebuild changes the panel's height: only a new width needs a redraw
+    if (w === this.lastWidth) return;
+    this.lastWidth = w;
     this.main?.setSize({ width: w, height: 300 });
     this.res?.setSize({ width: w, height: 130 });
   }
 
   /** The current x range (display time), for zoom state and exports. */
   xRange(): [number, number] | undefined {
+    this.flush();
     const s = this.main?.scales.x;
     return s && s.min != null && s.max != null ? [s.min, s.max] : undefined;
   }
 
   setX(t0: number, t1: number): void {
+    this.flush();
     this.main?.setScale("x", { min: t0, max: t1 });
   }
 
   resetZoom(): void {
+    this.flush();
     if (!this.input) return;
     const all = this.input.datasets.flatMap((d) => d.t);
     if (all.length === 0) return;
@@ -130,18 +138,117 @@ export class LightCurvePlot {
     ctx.restore();
   }
 
+  /**
+   * Shows input. The uPlot instances are kept and refilled with setData while
+   * the set of series stays the same (a new solution selected, new model
+   * curves, a changed mask); they are rebuilt only when datasets or models are
+   * added, removed or renamed, or the residual panel appears or goes. The work
+   * runs in the next animation frame, so a caller that also rebuilds other
+   * outputs does not add its time to the same page-thread task; several calls
+   * before that frame draw once.
+   */
   render(input: PlotInput): void {
+    this.pending = input;
+    if (this.frame === undefined) this.frame = requestAnimationFrame(() => this.flush());
+  }
+
+  private pending?: PlotInput;
+  private frame?: number;
+  private shape = ""; // series layout the current instances were built for
+  private aligned = new AlignCache();
+  private resAligned = new AlignCache();
+
+  /** Applies a pending render now (also before anything reads the plot's state). */
+  private flush(): void {
+    if (this.frame !== undefined) cancelAnimationFrame(this.frame);
+    this.frame = undefined;
+    const input = this.pending;
+    this.pending = undefined;
+    if (input) this.apply(input);
+  }
+
+  private apply(input: PlotInput): void {
     const keep = this.xRange();
     this.input = input;
+    if (input.datasets.length === 0) {
+      this.destroy();
+      return;
+    }
+    const withResid = input.datasets.filter((d) => d.resid);
+    const shape = JSON.stringify([input.yLabel, input.datasets.map((d) => [d.name, d.colour, !!d.resid]), input.models.length]);
+
+    const data = this.aligned.align([
+      ...input.datasets.map((d) => ({ x: d.t, y: d.y, masked: d.masked })),
+      ...input.models.map((m) => ({ x: m.t, y: m.y })),
+    ]);
+    const rdata = withResid.length ? this.resAligned.align(withResid.map((d) => ({ x: d.t, y: d.resid!, masked: d.masked }))) : undefined;
+
+    if (this.main && shape === this.shape) {
+      // same series: refill, restyle the model curves (solid = selected), keep the zoom
+      const main = this.main;
+      // legend rows: one per series but the x one (legend.live is off)
+      const rows = main.root.querySelectorAll<HTMLElement>(".u-legend .u-series");
+      input.models.forEach((m, i) => {
+        const k = input.datasets.length + 1 + i;
+        const sr = main.series[k];
+        sr.dash = m.dash ? [6, 4] : undefined;
+        sr.stroke = () => m.colour;
+        sr.label = m.label;
+        const row = rows[k - 1];
+        const marker = row?.querySelector<HTMLElement>(".u-marker");
+        if (marker) marker.style.border = `2px ${m.dash ? "dashed" : "solid"} ${m.colour}`;
+        const label = row?.querySelector<HTMLElement>(".u-label");
+        if (label && label.textContent !== m.label) label.textContent = m.label;
+      });
+      main.batch(() => {
+        main.setData(data, true);
+        if (keep) main.setScale("x", { min: keep[0], max: keep[1] });
+      });
+      if (this.resPending && rdata) this.resPending = { withResid, rdata };
+      if (this.res && rdata) {
+        // the residual panel in the next frame: two shorter page-thread tasks instead of one long one
+        const res = this.res;
+        requestAnimationFrame(() => {
+          if (this.res !== res) return;
+          res.batch(() => {
+            res.setData(rdata, true);
+            const x = main.scales.x;
+            if (x.min != null && x.max != null) res.setScale("x", { min: x.min, max: x.max });
+          });
+        });
+      }
+      return;
+    }
+    this.destroy();
+    this.shape = shape;
+    this.build(input, data);
+    if (keep) this.main?.setScale("x", { min: keep[0], max: keep[1] });
+    if (rdata) {
+      // the residual panel in the next frame (two shorter tasks)
+      const main = this.main;
+      this.resPending = { withResid, rdata };
+      requestAnimationFrame(() => {
+        const p = this.resPending;
+        this.resPending = undefined;
+        if (this.main !== main || !main || !p) return;
+        const res = this.buildResiduals(p.withResid, p.rdata);
+        const x = main.scales.x;
+        if (x.min != null && x.max != null) res.setScale("x", { min: x.min, max: x.max });
+      });
+    }
+  }
+
+  private resPending?: { withResid: PlotDataset[]; rdata: uPlot.AlignedData };
+
+  private destroy(): void {
+    this.resPending = undefined;
     this.main?.destroy();
     this.res?.destroy();
     this.main = this.res = undefined;
-    if (input.datasets.length === 0) return;
+    this.shape = "";
+  }
 
-    const tables: uPlot.AlignedData[] = [];
-    for (const d of input.datasets) tables.push([d.t, d.y.map((v, i) => (d.masked[i] ? null : v))] as uPlot.AlignedData);
-    for (const m of input.models) tables.push([m.t, m.y] as uPlot.AlignedData);
-    const data = uPlot.join(tables);
+  private build(input: PlotInput, data: uPlot.AlignedData): void {
     const series: uPlot.Series[] = [{ label: "HJD′" }];
     for (const d of input.datasets)
       series.push({
@@ -163,19 +270,23 @@ export class LightCurvePlot {
         value: (_u, v) => (v == null ? "—" : v.toFixed(3)),
       });
 
+    // Error bars and masked points, from the current input (setData keeps this hook).
     const errorBars = (u: uPlot) => {
+      const cur = this.input;
+      if (!cur) return;
       const ctx = u.ctx;
       ctx.save();
       ctx.beginPath();
       ctx.rect(u.bbox.left, u.bbox.top, u.bbox.width, u.bbox.height);
       ctx.clip();
-      input.datasets.forEach((d, k) => {
-        if (!u.series[k + 1].show) return;
+      const [xmin, xmax] = [u.scales.x.min!, u.scales.x.max!];
+      const r = 3 * devicePixelRatio;
+      cur.datasets.forEach((d, k) => {
+        if (!u.series[k + 1]?.show) return;
         ctx.strokeStyle = d.colour;
         ctx.globalAlpha = 0.4;
         ctx.lineWidth = 1;
         ctx.beginPath();
-        const [xmin, xmax] = [u.scales.x.min!, u.scales.x.max!];
         for (let i = 0; i < d.t.length; i++) {
           if (d.masked[i] || d.t[i] < xmin || d.t[i] > xmax) continue;
           const x = u.valToPos(d.t[i], "x", true);
@@ -191,8 +302,8 @@ export class LightCurvePlot {
           if (!d.masked[i] || d.t[i] < xmin || d.t[i] > xmax) continue;
           const x = u.valToPos(d.t[i], "x", true);
           const y = u.valToPos(d.y[i], "y", true);
-          ctx.moveTo(x + 3 * devicePixelRatio, y);
-          ctx.arc(x, y, 3 * devicePixelRatio, 0, 2 * Math.PI);
+          ctx.moveTo(x + r, y);
+          ctx.arc(x, y, r, 0, 2 * Math.PI);
         }
         ctx.stroke();
       });
@@ -201,6 +312,7 @@ export class LightCurvePlot {
 
     const sync = uPlot.sync("lensbook-lc");
     const w = this.width();
+    this.lastWidth = w;
     this.main = new uPlot(
       {
         width: w,
@@ -241,16 +353,17 @@ export class LightCurvePlot {
       this.mainEl,
     );
     // In mask modes a drag selects a box instead of zooming.
-    this.main.over.addEventListener("mousedown", () => {
-      (this.main!.cursor.drag as { setScale: boolean }).setScale = this.mode === "zoom";
+    const main = this.main;
+    main.over.addEventListener("mousedown", () => {
+      (main.cursor.drag as { setScale: boolean }).setScale = this.mode === "zoom";
     });
 
-    const withResid = input.datasets.filter((d) => d.resid);
-    if (withResid.length > 0) {
-      const rt: uPlot.AlignedData[] = withResid.map(
-        (d) => [d.t, d.resid!.map((v, i) => (d.masked[i] ? null : v))] as uPlot.AlignedData,
-      );
-      const rdata = uPlot.join(rt);
+  }
+
+  private buildResiduals(withResid: PlotDataset[], rdata: uPlot.AlignedData): uPlot {
+    const sync = uPlot.sync("lensbook-lc");
+    const w = this.width();
+    {
       const rseries: uPlot.Series[] = [{ label: "HJD′" }];
       for (const d of withResid)
         rseries.push({ label: d.name, stroke: d.colour, paths: () => null, points: { show: true, size: 4, fill: d.colour } });
@@ -284,12 +397,69 @@ export class LightCurvePlot {
         rdata,
         this.resEl,
       );
+      return this.res;
     }
-    if (keep) this.setX(keep[0], keep[1]);
   }
 
   /** PNG of the interactive plot as shown (main panel, and residuals if present). */
   canvases(): HTMLCanvasElement[] {
+    this.flush();
     return [this.main?.ctx.canvas, this.res?.ctx.canvas].filter((c): c is HTMLCanvasElement => !!c);
+  }
+}
+
+interface Column {
+  x: number[];
+  y: number[];
+  masked?: boolean[]; // masked points are left out (null)
+}
+
+/**
+ * uPlot wants every series on one shared x array. AlignCache keeps the joined
+ * x array and each column's positions in it while the columns' x values stay
+ * the same (they do when only a solution or a mask changes), so a redraw only
+ * places y values: O(series × points) with no sort.
+ */
+class AlignCache {
+  private xs: number[][] = [];
+  private joined: number[] = [];
+  private pos: Int32Array[] = [];
+
+  align(cols: Column[]): uPlot.AlignedData {
+    if (!this.same(cols)) this.rebuild(cols);
+    const n = this.joined.length;
+    const out: (number | null)[][] = cols.map((c, k) => {
+      const col = new Array<number | null>(n).fill(null);
+      const p = this.pos[k];
+      for (let i = 0; i < c.x.length; i++) {
+        const v = c.y[i];
+        col[p[i]] = c.masked?.[i] || !Number.isFinite(v) ? null : v;
+      }
+      return col;
+    });
+    return [this.joined, ...out] as uPlot.AlignedData;
+  }
+
+  private same(cols: Column[]): boolean {
+    if (cols.length !== this.xs.length) return false;
+    for (let k = 0; k < cols.length; k++) {
+      const a = cols[k].x;
+      const b = this.xs[k];
+      if (a === b) continue;
+      if (a.length !== b.length) return false;
+      for (let i = 0; i < a.length; i++) if (a[i] !== b[i]) return false;
+    }
+    return true;
+  }
+
+  private rebuild(cols: Column[]): void {
+    const all = new Set<number>();
+    for (const c of cols) for (const v of c.x) all.add(v);
+    this.joined = Float64Array.from(all).sort() as unknown as number[];
+    this.joined = Array.from(this.joined);
+    const index = new Map<number, number>();
+    this.joined.forEach((v, i) => index.set(v, i));
+    this.pos = cols.map((c) => Int32Array.from(c.x, (v) => index.get(v)!));
+    this.xs = cols.map((c) => c.x);
   }
 }

@@ -161,17 +161,27 @@ export function cornerFigure(c: Corner): SVGSVGElement {
           const b = Math.min(bins - 1, Math.max(0, Math.floor(((ys[k] - ext[i][0]) / (ext[i][1] - ext[i][0])) * bins)));
           g[b][a]++;
         }
-        const mx = Math.max(...g.flat(), 1);
+        let mx = 1;
+        for (const row of g) for (const v of row) mx = Math.max(mx, v);
         const dx = (ext[j][1] - ext[j][0]) / bins;
         const dy = (ext[i][1] - ext[i][0]) / bins;
+        // One path per shade (LEVELS of them) instead of one element per cell:
+        // a 7-parameter corner plot would otherwise be some 10⁴ SVG nodes.
+        const LEVELS = 32;
+        const byLevel: string[][] = Array.from({ length: LEVELS + 1 }, () => []);
         g.forEach((row, b) =>
           row.forEach((v, a) => {
             if (v === 0) return;
             const x0 = p.x(ext[j][0] + a * dx);
             const y0 = p.y(ext[i][0] + (b + 1) * dy);
-            p.plot.append(svg("rect", { x: x0.toFixed(1), y: y0.toFixed(1), width: (p.x(ext[j][0] + (a + 1) * dx) - x0 + 0.3).toFixed(1), height: (p.y(ext[i][0] + b * dy) - y0 + 0.3).toFixed(1), fill: ramp(1 - v / mx) }));
+            const w = p.x(ext[j][0] + (a + 1) * dx) - x0 + 0.3;
+            const h = p.y(ext[i][0] + b * dy) - y0 + 0.3;
+            byLevel[Math.round((v / mx) * LEVELS)].push(`M${x0.toFixed(1)} ${y0.toFixed(1)}h${w.toFixed(1)}v${h.toFixed(1)}h${(-w).toFixed(1)}z`);
           }),
         );
+        byLevel.forEach((cells, k) => {
+          if (cells.length) p.plot.append(svg("path", { d: cells.join(""), fill: ramp(1 - k / LEVELS) }));
+        });
       }
     }
   }

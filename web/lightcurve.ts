@@ -141,8 +141,9 @@ export class LightCurvePlot {
   /**
    * Shows input. The uPlot instances are kept and refilled with setData while
    * the set of series stays the same (a new solution selected, new model
-   * curves, a changed mask); they are rebuilt only when datasets or models are
-   * added, removed or renamed, or the residual panel appears or goes. The work
+   * curves, a changed mask; model curves added or removed with addSeries and
+   * delSeries); they are rebuilt only when datasets are added, removed or
+   * renamed, the y quantity changes, or the residual panel appears or goes. The work
    * runs in the next animation frame, so a caller that also rebuilds other
    * outputs does not add its time to the same page-thread task; several calls
    * before that frame draw once.
@@ -175,7 +176,7 @@ export class LightCurvePlot {
       return;
     }
     const withResid = input.datasets.filter((d) => d.resid);
-    const shape = JSON.stringify([input.yLabel, input.datasets.map((d) => [d.name, d.colour, !!d.resid]), input.models.length]);
+    const shape = JSON.stringify([input.yLabel, input.datasets.map((d) => [d.name, d.colour, !!d.resid]), ]);
 
     const data = this.aligned.align([
       ...input.datasets.map((d) => ({ x: d.t, y: d.y, masked: d.masked })),
@@ -191,6 +192,7 @@ export class LightCurvePlot {
       input.models.forEach((m, i) => {
         const k = input.datasets.length + 1 + i;
         const sr = main.series[k];
+        if (!sr) return; // added below with its own style
         sr.dash = m.dash ? [6, 4] : undefined;
         sr.stroke = () => m.colour;
         sr.label = m.label;
@@ -201,6 +203,10 @@ export class LightCurvePlot {
         if (label && label.textContent !== m.label) label.textContent = m.label;
       });
       main.batch(() => {
+        // model curves added or removed (a step finished): add or drop series, no rebuild
+        const first = input.datasets.length + 1;
+        while (main.series.length > first + input.models.length) main.delSeries(main.series.length - 1);
+        for (let i = main.series.length - first; i < input.models.length; i++) main.addSeries(modelSeries(input.models[i]), main.series.length);
         main.setData(data, true);
         if (keep) main.setScale("x", { min: keep[0], max: keep[1] });
       });
@@ -259,16 +265,7 @@ export class LightCurvePlot {
         points: { show: true, size: 5, stroke: d.colour, fill: d.colour },
         value: (_u, v) => (v == null ? "—" : v.toFixed(3)),
       });
-    for (const m of input.models)
-      series.push({
-        label: m.label,
-        stroke: m.colour,
-        width: 1.6,
-        dash: m.dash ? [6, 4] : undefined,
-        spanGaps: true,
-        points: { show: false },
-        value: (_u, v) => (v == null ? "—" : v.toFixed(3)),
-      });
+    for (const m of input.models) series.push(modelSeries(m));
 
     // Error bars and masked points, from the current input (setData keeps this hook).
     const errorBars = (u: uPlot) => {
@@ -406,6 +403,18 @@ export class LightCurvePlot {
     this.flush();
     return [this.main?.ctx.canvas, this.res?.ctx.canvas].filter((c): c is HTMLCanvasElement => !!c);
   }
+}
+
+function modelSeries(m: PlotModel): uPlot.Series {
+  return {
+    label: m.label,
+    stroke: m.colour,
+    width: 1.6,
+    dash: m.dash ? [6, 4] : undefined,
+    spanGaps: true,
+    points: { show: false },
+    value: (_u, v) => (v == null ? "—" : v.toFixed(3)),
+  };
 }
 
 interface Column {

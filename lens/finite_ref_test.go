@@ -160,35 +160,9 @@ func bruteBinaryDisk(t testing.TB, s *Solver, zc complex128, rho, ld, eps float6
 func fsCriticalPoints(b Binary, n int) (crit, caus []complex128) {
 	l := newFSLens(b)
 	z1, z2 := complex(l.z1, 0), complex(l.z2, 0)
-	var prev [5]complex128
-	have := false
+	var z [5]complex128
 	for i := 0; i < n; i++ {
-		e := cmplx.Rect(1, 2*math.Pi*float64(i)/float64(n))
-		// e (z−z1)²(z−z2)² − m1(z−z2)² − m2(z−z1)², coefficients by expansion.
-		p1 := [3]complex128{z1 * z1, -2 * z1, 1}
-		p2 := [3]complex128{z2 * z2, -2 * z2, 1}
-		var c [6]complex128
-		for a := 0; a < 3; a++ {
-			for bb := 0; bb < 3; bb++ {
-				c[a+bb] += e * p1[a] * p2[bb]
-			}
-		}
-		for a := 0; a < 3; a++ {
-			c[a] -= complex(l.m1, 0)*p2[a] + complex(l.m2, 0)*p1[a]
-		}
-		var mon [6]complex128
-		for k := 0; k < 4; k++ {
-			mon[k] = c[k] / c[4]
-		}
-		mon[4] = 1
-		z := prev
-		if !have {
-			for k := 0; k < 4; k++ {
-				z[k] = cmplx.Rect(1.5+float64(k)*0.1, 0.4+1.3*float64(k))
-			}
-		}
-		fsAberth(&mon, 4, &z, 500)
-		prev, have = z, true
+		l.criticalQuartic(cmplx.Rect(1, 2*math.Pi*float64(i)/float64(n)), &z, i == 0)
 		for k := 0; k < 4; k++ {
 			crit = append(crit, z[k])
 			zb := cmplx.Conj(z[k])

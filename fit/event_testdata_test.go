@@ -42,29 +42,39 @@ func loadTestdata(t *testing.T, dir string) (*truthFile, *fit.Event) {
 	}
 	ev := fit.NewEvent(tr.Event)
 	for _, s := range tr.Sites {
-		data, err := os.ReadFile(filepath.Join(dir, s.File))
-		if err != nil {
-			t.Fatal(err)
-		}
-		pv, err := fit.Sniff(s.File, data)
-		if err != nil {
-			t.Fatal(err)
-		}
-		opt := pv.Proposed
-		if opt.TimeOffset != s.TimeOffset {
-			t.Errorf("%s: importer proposes time offset %v, file has %v", s.File, opt.TimeOffset, s.TimeOffset)
-		}
-		opt.TimeOffset, opt.ZeroPoint, opt.Name, opt.Band, opt.LD = s.TimeOffset, s.ZeroPoint, s.Name, s.Band, s.LD
-		d, err := fit.Parse(s.File, data, opt)
-		if err != nil {
-			t.Fatal(err)
-		}
-		if d.Len() != s.N || len(d.Source.Rejected) != 0 {
-			t.Fatalf("%s: %d points (%d rejected), want %d", s.File, d.Len(), len(d.Source.Rejected), s.N)
-		}
-		ev.Datasets = append(ev.Datasets, d)
+		ev.Datasets = append(ev.Datasets, importSite(t, dir, s.File, s.N, func(opt *fit.ImportOptions) {
+			if opt.TimeOffset != s.TimeOffset {
+				t.Errorf("%s: importer proposes time offset %v, file has %v", s.File, opt.TimeOffset, s.TimeOffset)
+			}
+			opt.TimeOffset, opt.ZeroPoint, opt.Name, opt.Band, opt.LD = s.TimeOffset, s.ZeroPoint, s.Name, s.Band, s.LD
+		}))
 	}
 	return &tr, ev
+}
+
+// importSite reads one photometry file of a simulated event through the
+// importer (Sniff, then Parse with the proposals adjusted by confirm, as a user
+// would) and requires all n points accepted.
+func importSite(t *testing.T, dir, file string, n int, confirm func(*fit.ImportOptions)) *fit.Dataset {
+	t.Helper()
+	data, err := os.ReadFile(filepath.Join(dir, file))
+	if err != nil {
+		t.Fatal(err)
+	}
+	pv, err := fit.Sniff(file, data)
+	if err != nil {
+		t.Fatal(err)
+	}
+	opt := pv.Proposed
+	confirm(&opt)
+	d, err := fit.Parse(file, data, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if d.Len() != n || len(d.Source.Rejected) != 0 {
+		t.Fatalf("%s: %d points (%d rejected), want %d", file, d.Len(), len(d.Source.Rejected), n)
+	}
+	return d
 }
 
 // The demo files are what the generator command writes: re-simulating with

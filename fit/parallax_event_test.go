@@ -193,24 +193,9 @@ func loadParallaxFiles(t *testing.T) (*pxTruthFile, *fit.Event) {
 	}
 	ev.Coords, ev.TRef = &c, tf.TRef
 	for _, s := range tf.Sites {
-		data, err := os.ReadFile(filepath.Join(parallaxDir, s.File))
-		if err != nil {
-			t.Fatal(err)
-		}
-		pv, err := fit.Sniff(s.File, data)
-		if err != nil {
-			t.Fatal(err)
-		}
-		opt := pv.Proposed
-		opt.ZeroPoint, opt.Name, opt.Band, opt.LD = s.ZeroPoint, s.Name, s.Band, s.LD
-		d, err := fit.Parse(s.File, data, opt)
-		if err != nil {
-			t.Fatal(err)
-		}
-		if d.Len() != s.N || len(d.Source.Rejected) != 0 {
-			t.Fatalf("%s: %d points (%d rejected), want %d", s.File, d.Len(), len(d.Source.Rejected), s.N)
-		}
-		ev.Datasets = append(ev.Datasets, d)
+		ev.Datasets = append(ev.Datasets, importSite(t, parallaxDir, s.File, s.N, func(opt *fit.ImportOptions) {
+			opt.ZeroPoint, opt.Name, opt.Band, opt.LD = s.ZeroPoint, s.Name, s.Band, s.LD
+		}))
 	}
 	return &tf, ev
 }

@@ -175,26 +175,33 @@ func PlanetCentral() *Spec {
 // planetary caustic of a wide planet (s = 1.35, q = 1e-3; caustic near
 // s − 1/s = 0.61 from the host, Han 2006), with a finite source. α = 6.08 rad
 // puts the caustic centre 0.61·|sin α| ≈ 0.123 from the trajectory line, within
-// the caustic's half-height (≈ 2√q/(s√(s²+1)) = 0.028) of u0 = 0.12; the
-// crossing comes at τ ≈ 0.61·cos α ≈ 0.6, i.e. t0 + 16.7 d.
+// the caustic's half-height (≈ 2√q/(s√(s²+1)) = 0.028) of u0 = 0.12: the
+// source enters the caustic at t0 + 15.78 d and leaves it at t0 + 17.31 d
+// (trajectory against lens.Caustics, checked in problems_test.go). The
+// follow-up site observes round the clock from t0 + 14.5 d to t0 + 19 d, as an
+// alerted follow-up campaign would, so both jumps are in the data; the survey
+// alone misses the entry (it falls in its daytime gap).
 func PlanetaryCaustic() *Spec {
-	return &Spec{Name: "planetary caustic crossing", Note: "planetary-caustic crossing at low magnification",
+	return &Spec{Name: "planetary caustic crossing", Note: "planetary-caustic crossing at low magnification, entry and exit observed",
 		Truth: lens.Model{Params: lens.Params{T0: jd0, U0: 0.12, TE: 28, S: 1.35, Q: 1e-3, Alpha: 6.08, Rho: 0.003}, Ref: lens.CentralCaustic},
 		Sites: []Site{
 			survey("simsurvey", jd0-80, jd0+80, 0.1, 900, 300, 0.012),
-			{Name: "simfollow", Band: "I", Windows: []Window{{jd0 + 16, jd0 + 20, 0.01}}, NightFrac: 0,
+			{Name: "simfollow", Band: "I", Windows: []Window{{jd0 + 14.5, jd0 + 19, 0.01}}, NightFrac: 0,
 				ZeroPoint: 28, Fs: 800, Fb: 50, SigMag: 0.01, FloorMag: 0.002, LD: 0.55},
 		}}
 }
 
 // ResonantBinary is a stellar binary (q = 0.4, s = 1.05: a single resonant
-// caustic, Erdl & Schneider 1993) crossed by the source.
+// caustic, Erdl & Schneider 1993) crossed by the source: it enters the caustic
+// at t0 − 19.31 d and leaves it at t0 + 4.48 d (problems_test.go). The
+// follow-up network observes round the clock from t0 − 21 d to t0 + 8 d, so
+// both jumps are in the data.
 func ResonantBinary() *Spec {
-	return &Spec{Name: "resonant binary star", Note: "resonant caustic crossing, q = 0.4",
+	return &Spec{Name: "resonant binary star", Note: "resonant caustic crossing, q = 0.4, entry and exit observed",
 		Truth: lens.Model{Params: lens.Params{T0: jd0, U0: 0.1, TE: 40, S: 1.05, Q: 0.4, Alpha: 2.2, Rho: 0.004}, Ref: lens.CentralCaustic},
 		Sites: []Site{
 			survey("simsurvey", jd0-100, jd0+100, 0.2, 1000, 500, 0.012),
-			{Name: "simfollow", Band: "I", Windows: []Window{{jd0 - 15, jd0 + 15, 0.05}}, NightPhase: 0.5, NightFrac: 0.4,
+			{Name: "simfollow", Band: "I", Windows: []Window{{jd0 - 21, jd0 + 8, 0.05}}, NightFrac: 0,
 				ZeroPoint: 28, Fs: 900, Fb: 100, SigMag: 0.01, FloorMag: 0.002, LD: 0.55},
 		}}
 }

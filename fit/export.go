@@ -293,3 +293,55 @@ func LightCurveTable(info ExportInfo, times, mag []float64, magLo, magHi []float
 	t.Meta = info.meta()
 	return t, nil
 }
+
+// ForecastSummary returns the posterior of the next peak and the next caustic
+// crossing after f.Now as "key: value" header lines (full JD; median and the
+// ±1σ-equivalent quantiles over the draws that have the event, and the
+// fraction of draws that have it before the end of the window), for the
+// headers of forecast exports.
+func ForecastSummary(f *Forecast) []string {
+	g := func(x float64) string { return strconv.FormatFloat(x, 'g', -1, 64) }
+	line := func(key string, d TimeDistribution) string {
+		if d.Fraction == 0 || math.IsNaN(d.Median) {
+			return fmt.Sprintf("%s: none in the window (0 of %d draws)", key, f.Draws)
+		}
+		return fmt.Sprintf("%s: median %s, 15.87 %% quantile %s, 84.13 %% quantile %s (full JD), in %s of %d draws",
+			key, g(d.Median), g(d.Lower), g(d.Upper), g(d.Fraction), f.Draws)
+	}
+	out := []string{"forecast_from: " + g(f.Now) + " (full JD)", line("next_peak", f.Peak)}
+	if f.NextCrossing != nil {
+		out = append(out, line("next_caustic_crossing", f.Crossing))
+	} else {
+		out = append(out, "next_caustic_crossing: not searched (no caustic: single lens)")
+	}
+	for _, w := range f.Warnings {
+		out = append(out, "warning: "+w)
+	}
+	return out
+}
+
+// ForecastTimesTable has one row per posterior draw of a forecast: the time
+// of the draw's next magnification peak and next caustic crossing after
+// f.Now (full JD; NaN when there is none before the end of the window, or
+// when crossings were not searched).
+func ForecastTimesTable(info ExportInfo, f *Forecast) *Table {
+	n := len(f.NextPeak)
+	draw := make([]int64, n)
+	cross := make([]float64, n)
+	for i := range n {
+		draw[i] = int64(i + 1)
+		cross[i] = math.NaN()
+		if f.NextCrossing != nil {
+			cross[i] = f.NextCrossing[i]
+		}
+	}
+	t := &Table{Columns: []Column{
+		{Name: "draw", Int: draw},
+		{Name: "next_peak", Unit: "d", Description: "full Julian date of the first magnification peak after the forecast start; NaN: none in the window", Float: f.NextPeak},
+		{Name: "next_caustic_crossing", Unit: "d", Description: "full Julian date of the first caustic crossing of the source centre after the forecast start; NaN: none in the window or not searched", Float: cross},
+	}}
+	info.Notes = append(info.Notes, ForecastSummary(f)...)
+	info.Notes = append(info.Notes, f.Method...)
+	t.Meta = info.meta()
+	return t
+}

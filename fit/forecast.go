@@ -32,6 +32,9 @@ type ForecastSettings struct {
 	// the higher of the minima on either side for it to count as a peak (so that
 	// the finite-source integration's numerical ripple is not a peak); 0 means 0.01.
 	Prominence float64
+	// Progress, when set, is called after each draw with the number of draws
+	// done and the total (for a progress bar); it must not block.
+	Progress func(done, total int) `json:"-"`
 }
 
 // TimeDistribution summarises the posterior of an event time over draws.
@@ -130,6 +133,9 @@ func ForecastCurves(ctx context.Context, draws [][]float64, curve DrawCurve, ima
 			f.NextCrossing[k] = t
 			undecided += bad
 		}
+		if set.Progress != nil {
+			set.Progress(k+1, nd)
+		}
 	}
 	f.Amp, f.AmpLower, f.AmpUpper = pointwiseBand(amps, nd, n)
 	f.Mag, f.MagLower, f.MagUpper = make([][]float64, nData), make([][]float64, nData), make([][]float64, nData)
@@ -138,7 +144,7 @@ func ForecastCurves(ctx context.Context, draws [][]float64, curve DrawCurve, ima
 	}
 	f.Peak = timeDistribution(f.NextPeak)
 	f.Method = []string{
-		fmt.Sprintf("band: %g, 50 and %g %% quantiles over %d posterior draws at each of %d times", 100*LowerQuantile, 100*UpperQuantile, nd, n),
+		fmt.Sprintf("band: %.2f, 50 and %.2f %% quantiles over %d posterior draws at each of %d times", 100*LowerQuantile, 100*UpperQuantile, nd, n),
 		fmt.Sprintf("peak: first grid maximum of the magnification after now with a prominence of at least %g of its value, refined by a parabola through three grid points", set.Prominence),
 	}
 	if images != nil {

@@ -12,7 +12,7 @@ import { PROTOCOL_VERSION, type Progress, type Reply, type Request } from "./pro
 const CANCEL_GRACE_MS = 400;
 
 /** Steps that take milliseconds: they run on the light worker. */
-const LIGHT_STEPS = new Set(["info", "notebook-new", "notebook-decode", "notebook-encode", "describe", "link-encode", "link-decode", "attach", "preview", "parse", "edit", "mask", "grid-merge", "curves", "export", "coords"]);
+const LIGHT_STEPS = new Set(["info", "notebook-new", "notebook-decode", "notebook-encode", "describe", "link-encode", "link-decode", "attach", "preview", "parse", "edit", "mask", "grid-merge", "curves", "export", "coords", "physical"]);
 
 export interface JobResult<T> {
   kind: "result" | "cancelled";

@@ -3,7 +3,7 @@
 // on the page and exported (as .svg, or rasterised to .png), so what the user
 // sees is what they save. Only numbers computed by the engine are drawn here.
 
-import { download } from "./dom";
+import { download, el } from "./dom";
 
 const NS = "http://www.w3.org/2000/svg";
 
@@ -224,4 +224,13 @@ export async function exportPNG(root: SVGSVGElement, name: string): Promise<void
   } finally {
     URL.revokeObjectURL(url);
   }
+}
+
+/** A figure with its SVG and PNG export buttons. */
+export function figureBox(fig: SVGSVGElement, name: string): HTMLElement {
+  const svgBtn = el("button", { class: "small", "data-figure": name + "-svg", text: "SVG" });
+  svgBtn.addEventListener("click", () => exportSVG(fig, name));
+  const pngBtn = el("button", { class: "small", "data-figure": name + "-png", text: "PNG" });
+  pngBtn.addEventListener("click", () => void exportPNG(fig, name));
+  return el("figure", {}, fig, el("figcaption", {}, "Export: ", svgBtn, pngBtn));
 }

@@ -30,6 +30,15 @@ export interface PlotInput {
   yLabel: string;
 }
 
+/** A posterior band (forecast): lower and upper model magnitude at each time, drawn under the points. */
+export interface PlotBand {
+  label: string;
+  colour: string;
+  t: number[]; // display time (HJD′)
+  lo: number[];
+  hi: number[];
+}
+
 export type DragMode = "zoom" | "mask" | "unmask";
 
 /** Tick labels as plain decimals (no thousands separators), as many decimals as the tick step needs. */
@@ -48,6 +57,7 @@ export class LightCurvePlot {
   /** Map view: the time (HJD′) under the cursor, or undefined when it leaves the plot. */
   onCursor?: (t: number | undefined) => void;
   private overlay?: PlotModel; // map view's dragged model, drawn over the plot without re-rendering it
+  private bands: PlotBand[] = []; // forecast bands, drawn under the points
 
   constructor(
     private mainEl: HTMLElement,
@@ -86,7 +96,8 @@ export class LightCurvePlot {
   resetZoom(): void {
     this.flush();
     if (!this.input) return;
-    const all = this.input.datasets.flatMap((d) => d.t);
+    // the data, and the forecast window when a band is shown
+    const all = this.input.datasets.flatMap((d) => d.t).concat(this.bands.flatMap((b) => [b.t[0], b.t[b.t.length - 1]]));
     if (all.length === 0) return;
     let lo = Infinity;
     let hi = -Infinity;
@@ -109,6 +120,52 @@ export class LightCurvePlot {
   setOverlay(m: PlotModel | undefined): void {
     this.overlay = m;
     this.main?.redraw(false, false);
+  }
+
+  /** Shows the forecast bands (none: clears them); redraws without rebuilding the plot. */
+  setBands(bands: PlotBand[]): void {
+    this.bands = bands;
+    this.main?.redraw(false, false);
+  }
+
+  /** Fills each band between its lower and upper curve, clipped to the plot area. */
+  private drawBands(u: uPlot): void {
+    if (this.bands.length === 0) return;
+    const ctx = u.ctx;
+    ctx.save();
+    ctx.beginPath();
+    ctx.rect(u.bbox.left, u.bbox.top, u.bbox.width, u.bbox.height);
+    ctx.clip();
+    for (const b of this.bands) {
+      // one closed polygon per run of finite values: along the upper edge, back along the lower one
+      let i = 0;
+      const n = b.t.length;
+      while (i < n) {
+        while (i < n && !(Number.isFinite(b.lo[i]) && Number.isFinite(b.hi[i]))) i++;
+        let j = i;
+        while (j < n && Number.isFinite(b.lo[j]) && Number.isFinite(b.hi[j])) j++;
+        if (j - i >= 2) {
+          ctx.beginPath();
+          for (let k = i; k < j; k++) {
+            const x = u.valToPos(b.t[k], "x", true);
+            const y = u.valToPos(b.hi[k], "y", true);
+            if (k === i) ctx.moveTo(x, y);
+            else ctx.lineTo(x, y);
+          }
+          for (let k = j - 1; k >= i; k--) ctx.lineTo(u.valToPos(b.t[k], "x", true), u.valToPos(b.lo[k], "y", true));
+          ctx.closePath();
+          ctx.globalAlpha = 0.28;
+          ctx.fillStyle = b.colour;
+          ctx.fill();
+          ctx.globalAlpha = 0.7;
+          ctx.strokeStyle = b.colour;
+          ctx.lineWidth = devicePixelRatio;
+          ctx.stroke();
+        }
+        i = j;
+      }
+    }
+    ctx.restore();
   }
 
   private drawOverlay(u: uPlot): void {
@@ -323,6 +380,7 @@ export class LightCurvePlot {
         cursor: { sync: { key: sync.key, setSeries: false }, drag: { x: true, y: true, uni: 30 } },
         legend: { live: false },
         hooks: {
+          drawAxes: [(u) => this.drawBands(u)],
           draw: [errorBars, (u) => this.drawOverlay(u)],
           setCursor: [(u) => this.onCursor?.(u.cursor.left != null && u.cursor.left >= 0 ? u.posToVal(u.cursor.left, "x") : undefined)],
           setSelect: [

@@ -12,7 +12,7 @@
 import "./style.css";
 import { $, clear, download, el, fmt, fmtDuration } from "./dom";
 import { EnginePool, type Job } from "./engine";
-import { exportPNG, exportSVG, PALETTE, SOLUTION_COLOURS } from "./figures";
+import { exportPNG, exportSVG, figureBox, PALETTE, SOLUTION_COLOURS } from "./figures";
 import { causticsFigure, chi2MapFigure, cornerFigure, lightCurveFigure, type CausticsData } from "./plots";
 import { LightCurvePlot, type DragMode, type PlotInput } from "./lightcurve";
 import {
@@ -26,12 +26,15 @@ import {
   type DocStep,
   type NotebookDoc,
   type Params,
+  type PosteriorResult,
   type Solution,
   type StepId,
   type Steps,
 } from "./notebook";
-import type { CoordsSettings, Progress } from "./protocol";
+import type { CoordsSettings, ForecastOut, PhysicalOut, Progress } from "./protocol";
 import * as persist from "./persist";
+import { newPhysical, renderPhysical, type PhysicalPanel } from "./physical";
+import { forecastBands, newForecast, renderForecast, type ForecastHost, type ForecastPanel } from "./forecast";
 
 const TIME_OFFSET = 2450000; // display HJD′ = JD − 2450000 (common practice)
 
@@ -49,6 +52,11 @@ let curveSolutions: number[] = []; // solutions() index of each model curve in `
 const MAX_MODELS = 4;
 const listeners = new Set<() => void>();
 const running = new Map<StepId, Job<unknown>[]>();
+// The Report step's computed panels (physical quantities, forecast), kept in the notebook as steps of their own kinds.
+let physical: PhysicalPanel = newPhysical();
+let forecast: ForecastPanel = newForecast();
+let panelTick = 0; // bumped on every panel change, so the Report's cached output is rebuilt
+const PANEL_KIND = { physical: "physical-quantities", forecast: "forecast" } as const;
 
 interface Pending {
   file: string;
@@ -115,24 +123,6 @@ interface GridOut {
 interface SearchResult {
   candidates: { solution: Solution; partners: { kind: string; solution: Solution }[] | null; deltaChi2: number }[];
   status: string;
-}
-/** protocol.PosteriorOut */
-interface PosteriorResult {
-  modes: {
-    label: string;
-    params: { name: string; unit: string; median: number | null; lower: number | null; upper: number | null; tau: number | null; ess: number | null; rhat: number | null }[];
-    best_chi2: number | null;
-    converged: boolean;
-    reasons: string[] | null;
-    acceptance: number | null;
-    steps: number;
-    samples: number;
-    status: string;
-    corner: { names: string[]; labels: string[]; samples: (number | null)[][] };
-  }[];
-  comparison: { Mode: string; Chi2: number; DeltaChi2: number; DeltaBIC: number }[] | null;
-  cancelled: boolean;
-  exports: Record<string, { name: string; mime: string; text: string }>;
 }
 /** protocol.Curves */
 interface CurvesResult {
@@ -266,14 +256,20 @@ interface Contents {
   warnings: string[] | null;
 }
 
-async function makeLink(): Promise<void> {
+/**
+ * Puts a fit link in the address bar: the whole notebook when it fits (about
+ * 100 kB), else a model link; modelOnly always makes a model link (the
+ * parameters, results and a fingerprint of the data, for data that must not
+ * travel).
+ */
+async function makeLink(modelOnly = false): Promise<void> {
   const d = fullDoc();
   if (!d || !datasets().length) {
     alertBox("Add data first: a fit link carries the notebook.");
     return;
   }
   try {
-    const r = await call<{ link: string; contents: Contents }>("link-encode", { notebook: d, model_only: false });
+    const r = await call<{ link: string; contents: Contents }>("link-encode", { notebook: d, model_only: modelOnly });
     history.replaceState(null, "", "#" + r.link);
     let copied = false;
     try {
@@ -326,6 +322,13 @@ async function openLinkFromURL(): Promise<boolean> {
 
 function changed(from: StepId): void {
   markDownstream(steps, from);
+  // the panels work on the posterior: anything up to it changing makes them stale
+  if (STEP_ORDER.indexOf(from) <= STEP_ORDER.indexOf("posterior"))
+    for (const pn of [physical, forecast])
+      if (pn.result !== undefined && !pn.stale) {
+        pn.stale = true;
+        panelTick++;
+      }
   renderAll();
   notify();
 }
@@ -602,10 +605,19 @@ function renderData(body: HTMLElement): void {
     const inp = el("input", { type: "file", "aria-label": `data file for ${d.name}`, "data-attach": k });
     inp.addEventListener("change", async () => {
       const f = inp.files?.[0];
-      if (!f) return;
-      await edit("attach", { index: k, file: f.name, text: await f.text() }, `Attached ${f.name}: fingerprint matches.`);
+      inp.value = "";
+      if (f) await attachFile(k, f.name, await f.text());
     });
-    body.append(el("div", { class: "pending" }, el("p", { class: "warn", text: `Dataset “${d.name}” waits for its data: ${d.source.file || "the original file"}, ${d.points} points. Choose the same file; its numbers are checked against the fingerprint ${d.fingerprint.slice(0, 12)}….` }), inp));
+    const note = attachNotes.get(k);
+    body.append(
+      el(
+        "div",
+        { class: "pending", "data-pending": k },
+        el("p", { class: "warn", text: `Dataset “${d.name}” waits for its data: ${d.source.file || "the original file"}, ${d.points} points. Choose the same file; its numbers are checked against the fingerprint ${d.fingerprint.slice(0, 12)}….` }),
+        inp,
+        note ? el("p", { class: "error attach-error", role: "alert", text: note }) : null,
+      ),
+    );
   });
   if (ds.length) {
     const tbl = el("table", { class: "datasets", id: "datasets" });
@@ -659,6 +671,32 @@ function renderData(body: HTMLElement): void {
     });
     body.append(tbl, el("p", { class: "hint", text: "To mask points, set “drag selects: mask” above the light curve and drag a box around them." }));
   }
+}
+
+/** Why the last file offered for a waiting dataset was refused, by dataset index. */
+const attachNotes = new Map<number, string>();
+
+/**
+ * Gives a waiting dataset (from a model link) its data file. The engine reads
+ * it with the recorded import options and attaches it only if its points match
+ * the recorded count and fingerprint; a refused file changes nothing and the
+ * reason is shown beside the file input. The data are the ones the results
+ * were made with, so no result becomes stale.
+ */
+async function attachFile(k: number, file: string, text: string): Promise<void> {
+  try {
+    doc = await call<NotebookDoc>("attach", { notebook: doc, index: k, file, text });
+  } catch (e) {
+    attachNotes.set(k, `${file} was not attached: ${(e as Error).message}`);
+    renderStep("data");
+    return;
+  }
+  attachNotes.clear();
+  const waiting = datasets().filter((d) => d.omitted).length;
+  steps.data.message = `Attached ${file}: its points match the fingerprint.` + (waiting ? ` ${waiting} dataset${waiting === 1 ? "" : "s"} still wait for data.` : " Every dataset has its data.");
+  renderAll();
+  notify();
+  await updateCurves();
 }
 
 async function takeFiles(files: { name: string; text: string }[]): Promise<void> {
@@ -832,6 +870,16 @@ function fullDoc(): NotebookDoc | undefined {
       note: s.stale ? "stale: inputs changed after this result" : undefined,
     });
   }
+  const panels: [keyof typeof PANEL_KIND, PhysicalPanel | ForecastPanel][] = [
+    ["physical", physical],
+    ["forecast", forecast],
+  ];
+  for (const [id, pn] of panels) {
+    if (pn.result === undefined) continue;
+    // the forecast's export files are large and remade by running it again
+    const result = id === "forecast" ? { ...(pn.result as ForecastOut), exports: undefined } : pn.result;
+    out.push({ id, kind: PANEL_KIND[id], settings: pn.settings, seed: String(seed), status: "done", result, note: pn.stale ? "stale: inputs changed after this result" : undefined });
+  }
   return { ...doc, steps: out };
 }
 
@@ -873,7 +921,19 @@ function adoptDoc(d: NotebookDoc): void {
   doc = { ...d, steps: [] };
   coordsDraft = coordsNote = undefined;
   steps = newSteps();
+  physical = newPhysical();
+  forecast = newForecast();
+  attachNotes.clear();
+  panelTick++;
   for (const s of d.steps ?? []) {
+    const pn = s.kind === PANEL_KIND.physical ? physical : s.kind === PANEL_KIND.forecast ? forecast : undefined;
+    if (pn) {
+      if (s.settings && typeof s.settings === "object") Object.assign(pn.settings, s.settings);
+      pn.result = s.result as (PhysicalOut & ForecastOut) | undefined;
+      pn.status = s.status === "done" && s.result ? "done" : "empty";
+      pn.stale = !!s.note?.startsWith("stale");
+      continue;
+    }
     const id = STEP_ORDER.find((k) => STEP_KIND[k] === s.kind || k === s.id);
     if (!id) continue;
     const st = steps[id];
@@ -1073,13 +1133,6 @@ function solutionTable(sols: Solution[], keys: (keyof Params)[], id: string, sel
   return tbl;
 }
 
-function figureBox(fig: SVGSVGElement, name: string): HTMLElement {
-  const svgBtn = el("button", { class: "small", "data-figure": name + "-svg", text: "SVG" });
-  svgBtn.addEventListener("click", () => exportSVG(fig, name));
-  const pngBtn = el("button", { class: "small", "data-figure": name + "-png", text: "PNG" });
-  pngBtn.addEventListener("click", () => void exportPNG(fig, name));
-  return el("figure", {}, fig, el("figcaption", {}, "Export: ", svgBtn, pngBtn));
-}
 
 /**
  * Outputs are rebuilt only when what they show changed (the result object, the
@@ -1092,7 +1145,7 @@ function renderOutputs(id: StepId, body: HTMLElement): void {
   const s = steps[id];
   const key: unknown[] = [s.result, selected];
   if (id === "refine") key.push(curves);
-  if (id === "report") key.push(steps.posterior.result, doc, pool.steps.length, steps.single.result, steps.refine.result);
+  if (id === "report") key.push(steps.posterior.result, doc, pool.steps.length, steps.single.result, steps.refine.result, panelTick);
   const hit = outputCache.get(id);
   if (hit && hit.key.length === key.length && hit.key.every((k, i) => k === key[i])) {
     body.append(hit.node);
@@ -1176,9 +1229,49 @@ const POSTERIOR_EXPORTS: [string, string][] = [
   ["samples-ecsv-0", "posterior samples (ECSV)"],
 ];
 
+/** What the Report step's panels need from the page. */
+const panelHost: ForecastHost = {
+  pool,
+  notebook: () => doc,
+  posterior: () => steps.posterior.result as PosteriorResult | undefined,
+  seed: () => seed,
+  update: () => {
+    panelTick++;
+    renderStep("report");
+    renderPlots();
+    notify();
+  },
+  lastTime: () => {
+    let last: number | undefined;
+    for (const d of datasets()) for (const t of d.t ?? []) if (last === undefined || t > last) last = t;
+    return last;
+  },
+  plotInput: () => plotInput(),
+  showWindow: (t0, t1) => lc.setX(t0, t1),
+};
+
+/** Export buttons for every file a panel's result offers (name and label from the engine's keys). */
+function panelExports(row: HTMLElement, exports: Record<string, { name: string; mime: string; text: string }> | undefined, labels: [string, string][], missing: string): void {
+  for (const [prefix, label] of labels) {
+    const keys = Object.keys(exports ?? {}).filter((k) => k.slice(0, k.lastIndexOf("-")) === prefix);
+    if (keys.length === 0) {
+      row.append(el("button", { "data-export": prefix + "-0", text: label, disabled: true, title: missing }));
+      continue;
+    }
+    for (const k of keys.sort()) {
+      const file = exports![k];
+      const mode = Number(k.slice(k.lastIndexOf("-") + 1));
+      const b = el("button", { "data-export": k, text: keys.length > 1 ? `${label}, mode ${mode + 1}` : label, title: file.name });
+      b.addEventListener("click", () => download(file.name, file.text, file.mime));
+      row.append(b);
+    }
+  }
+}
+
 function renderReport(out: HTMLElement): void {
   out.append(el("p", { class: "caution", text: "Every number here is a research estimate from the model and data as set up in this notebook. Physical quantities rest on the assumptions printed beside them; check them before you publish or schedule on them." }));
   const post = steps.posterior.result as PosteriorResult | undefined;
+  out.append(renderPhysical(panelHost, physical), renderForecast(panelHost, forecast));
   const row = el("div", { class: "exports" });
   for (const [kind, label] of POSTERIOR_EXPORTS) {
     const file = post?.exports?.[kind];
@@ -1198,6 +1291,17 @@ function renderReport(out: HTMLElement): void {
     });
     row.append(b);
   }
+  panelExports(row, physical.result?.exports, [["physical-csv", "physical quantities (CSV)"], ["physical-ecsv", "physical quantities (ECSV)"]], "compute the physical quantities first");
+  panelExports(
+    row,
+    forecast.result?.exports,
+    [
+      ["forecast-csv", "forecast band (CSV)"],
+      ["forecast-ecsv", "forecast band (ECSV)"],
+      ["forecast-times-csv", "next peak and crossing times (CSV)"],
+    ],
+    "run the forecast first (its files are not kept in saved notebooks)",
+  );
   const nbBtn = el("button", { "data-export": "notebook", text: "notebook file", disabled: !doc });
   nbBtn.addEventListener("click", () => void saveNotebook());
   row.append(nbBtn);
@@ -1238,13 +1342,15 @@ function plotInput(): PlotInput {
           };
         })
       : [],
-    models: (curves?.models ?? []).map((m, i) => ({
-      label: m.label || sols[curveSolutions[i]]?.label || `model ${i + 1}`,
-      colour: SOLUTION_COLOURS[curveSolutions[i] % SOLUTION_COLOURS.length],
-      dash: curveSolutions[i] !== selected,
-      t: m.t.map((t) => t - TIME_OFFSET),
-      y: nn(m.y),
-    })),
+    models: (curves?.models ?? [])
+      .map((m, i) => ({
+        label: m.label || sols[curveSolutions[i]]?.label || `model ${i + 1}`,
+        colour: SOLUTION_COLOURS[curveSolutions[i] % SOLUTION_COLOURS.length],
+        dash: curveSolutions[i] !== selected,
+        t: m.t.map((t) => t - TIME_OFFSET),
+        y: nn(m.y),
+      }))
+      .concat(curves ? forecastBands(forecast).models : []),
   };
 }
 
@@ -1263,6 +1369,7 @@ function zoomToAnomaly(): void {
 
 function renderPlots(): void {
   lc.render(plotInput());
+  lc.setBands(curves ? forecastBands(forecast).bands : []);
   const st = $("#plot-status");
   st.textContent = datasets().length ? "" : "Add data (or load the demo event) to see the light curve.";
   document.querySelectorAll<HTMLElement>(".swatch").forEach((s) => (s.style.background = PALETTE[Number(s.dataset.colour)]));
@@ -1282,8 +1389,8 @@ export interface HookDataset {
   ld: number;
 }
 
-/** Model parameters in the map view's naming: t0 (full JD), u0, tE (d), rho, s, q, alpha (rad). */
-export type HookModel = Record<"t0" | "u0" | "tE" | "rho" | "s" | "q" | "alpha", number>;
+/** Model parameters in the map view's naming: t0 (full JD), u0, tE (d), rho, s, q, alpha (rad); optionally the parallax piEN, piEE. */
+export type HookModel = Record<"t0" | "u0" | "tE" | "rho" | "s" | "q" | "alpha", number> & { piEN?: number; piEE?: number };
 
 export interface LensbookHook {
   /** Current datasets, the selected solution's model, the notebook document and all solutions (copies). */
@@ -1338,8 +1445,8 @@ function fromHookModel(m: Partial<HookModel>): Params {
     S: m.s ?? base?.S ?? 0,
     Q: m.q ?? base?.Q ?? 0,
     Alpha: m.alpha ?? base?.Alpha ?? 0,
-    PiEN: base?.PiEN ?? 0,
-    PiEE: base?.PiEE ?? 0,
+    PiEN: m.piEN ?? base?.PiEN ?? 0,
+    PiEE: m.piEE ?? base?.PiEE ?? 0,
     DsDt: base?.DsDt ?? 0,
     DAlphaDt: base?.DAlphaDt ?? 0,
   };
@@ -1406,6 +1513,7 @@ function boot(): void {
   $("#demo").addEventListener("click", () => void loadDemo());
   $("#save").addEventListener("click", () => void saveNotebook());
   $("#link").addEventListener("click", () => void makeLink());
+  $("#model-link").addEventListener("click", () => void makeLink(true));
   const open = $("#open-input") as HTMLInputElement;
   open.addEventListener("change", async () => {
     const f = open.files?.[0];

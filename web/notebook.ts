@@ -170,3 +170,25 @@ export const FREE_TO_FIELD: Record<string, keyof Params> = {
   dsdt: "DsDt",
   dalphadt: "DAlphaDt",
 };
+
+/** protocol.PosteriorOut: summaries, diagnostics and a random subset of the draws (corner) per mode. */
+export interface PosteriorResult {
+  modes: {
+    label: string;
+    params: { name: string; unit: string; median: number | null; lower: number | null; upper: number | null; tau: number | null; ess: number | null; rhat: number | null }[];
+    best_chi2: number | null;
+    converged: boolean;
+    reasons: string[] | null;
+    acceptance: number | null;
+    steps: number;
+    samples: number;
+    status: string;
+    corner: { names: string[]; labels: string[]; samples: (number | null)[][] };
+    /** lens.Params of the mode's fixed parameters and its t0,par (absent in results saved by older versions). */
+    base?: Params;
+    tref?: number;
+  }[];
+  comparison: { Mode: string; Chi2: number; DeltaChi2: number; DeltaBIC: number }[] | null;
+  cancelled: boolean;
+  exports: Record<string, { name: string; mime: string; text: string }>;
+}

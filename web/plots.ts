@@ -231,3 +231,129 @@ export function lightCurveFigure(input: PlotInput, range?: [number, number]): SV
   }
   return root;
 }
+
+export interface BandSeries {
+  label: string;
+  colour: string;
+  t: number[]; // display time (HJD′)
+  lo: number[];
+  mid: number[];
+  hi: number[];
+}
+
+/**
+ * The forecast as a figure: the data near the window, each mode's posterior
+ * band (15.87–84.13 % of the model magnitude at each time) with its median,
+ * the forecast start, and the 68 % interval of the next peak shaded.
+ */
+export function forecastFigure(input: PlotInput, bands: BandSeries[], window: [number, number], now: number, peaks: { lo: number; hi: number; colour: string }[]): SVGSVGElement {
+  const W = 560;
+  const H = 300;
+  const root = newFigure(W, H, "Light-curve forecast with posterior band");
+  const [t0, t1] = window;
+  const ys: number[] = [];
+  for (const b of bands)
+    for (let i = 0; i < b.t.length; i++)
+      if (b.t[i] >= t0 && b.t[i] <= t1) ys.push(b.lo[i], b.hi[i]);
+  for (const d of input.datasets)
+    for (let i = 0; i < d.t.length; i++) if (!d.masked[i] && d.t[i] >= t0 && d.t[i] <= t1) ys.push(d.y[i]);
+  let [y0, y1] = extent(ys);
+  const py = Math.max((y1 - y0) * 0.08, 0.01);
+  y0 -= py;
+  y1 += py;
+  const p = new Panel(root, 64, 26, W - 84, H - 76, { lo: t0, hi: t1, label: "HJD′ = JD − 2450000" }, { lo: y0, hi: y1, label: input.yLabel, invert: true });
+  for (const k of peaks) {
+    if (!(Number.isFinite(k.lo) && Number.isFinite(k.hi))) continue;
+    const a = p.x(Math.max(t0, k.lo));
+    const b = p.x(Math.min(t1, k.hi));
+    if (b > a) p.plot.append(svg("rect", { x: a.toFixed(2), y: p.top, width: Math.max(1, b - a).toFixed(2), height: p.h, fill: k.colour, "fill-opacity": 0.12 }));
+  }
+  for (const b of bands) {
+    let d = "";
+    let i = 0;
+    const n = b.t.length;
+    while (i < n) {
+      while (i < n && !(Number.isFinite(b.lo[i]) && Number.isFinite(b.hi[i]))) i++;
+      let j = i;
+      while (j < n && Number.isFinite(b.lo[j]) && Number.isFinite(b.hi[j])) j++;
+      if (j - i >= 2) {
+        for (let k = i; k < j; k++) d += (k === i ? "M" : "L") + p.x(b.t[k]).toFixed(2) + " " + p.y(b.hi[k]).toFixed(2);
+        for (let k = j - 1; k >= i; k--) d += "L" + p.x(b.t[k]).toFixed(2) + " " + p.y(b.lo[k]).toFixed(2);
+        d += "Z";
+      }
+      i = j;
+    }
+    if (d) p.plot.append(svg("path", { d, fill: b.colour, "fill-opacity": 0.25, stroke: b.colour, "stroke-opacity": 0.6, "stroke-width": 0.8 }));
+    p.polyline(b.t, b.mid, b.colour, 1.4);
+  }
+  input.datasets.forEach((d) => {
+    const keep = d.t.map((t, i) => !d.masked[i] && t >= t0 && t <= t1);
+    p.points(d.t.filter((_, i) => keep[i]), d.y.filter((_, i) => keep[i]), d.colour, 1.8, d.e.filter((_, i) => keep[i]));
+  });
+  if (now >= t0 && now <= t1) {
+    p.polyline([now, now], [y0, y1], MUTED, 1, "3 3");
+    const t = svg("text", { x: (p.x(now) + 4).toFixed(1), y: p.top + 12, "font-family": "system-ui, sans-serif", "font-size": 10, fill: MUTED });
+    t.textContent = "forecast from here";
+    p.plot.append(t);
+  }
+  let lx = 64;
+  for (const b of bands) {
+    root.append(svg("rect", { x: lx, y: 9, width: 14, height: 9, fill: b.colour, "fill-opacity": 0.35, stroke: b.colour }));
+    caption(root, lx + 18, 18, b.label + " (68 % band, median)", 11);
+    lx += 40 + (b.label.length + 20) * 6;
+  }
+  return root;
+}
+
+export interface Histogram {
+  label: string;
+  colour: string;
+  values: number[]; // display time (HJD′); non-finite values are left out
+}
+
+/**
+ * Small histograms of event times over the posterior draws (next peak, next
+ * crossing) on one axis. Times within two days of each other are shown in
+ * hours from their median (HJD′ tick labels could not tell them apart).
+ */
+export function timeHistogramFigure(hs: Histogram[]): SVGSVGElement {
+  const W = 420;
+  const H = 190;
+  const root = newFigure(W, H, "Posterior of the next peak and caustic-crossing times");
+  const finite = hs.flatMap((h) => h.values.filter((v) => Number.isFinite(v))).sort((a, b) => a - b);
+  const [flo, fhi] = extent(finite);
+  const hours = fhi - flo < 2;
+  const ref = hours ? Math.round(finite[Math.floor(finite.length / 2)] * 1000) / 1000 : 0;
+  const tx = (v: number) => (hours ? (v - ref) * 24 : v);
+  const xLabel = hours ? `hours from HJD′ ${ref.toFixed(3)}` : "HJD′ = JD − 2450000";
+  let [lo, hi] = [tx(flo), tx(fhi)];
+  if (!(hi > lo)) [lo, hi] = [lo - 0.5, hi + 0.5];
+  const pad = (hi - lo) * 0.05;
+  lo -= pad;
+  hi += pad;
+  const bins = 30;
+  const counts = hs.map((h) => {
+    const c = new Array<number>(bins).fill(0);
+    for (const v of h.values) if (Number.isFinite(v)) c[Math.min(bins - 1, Math.max(0, Math.floor(((tx(v) - lo) / (hi - lo)) * bins)))]++;
+    return c;
+  });
+  const top = Math.max(1, ...counts.flat());
+  const p = new Panel(root, 50, 24, W - 70, H - 70, { lo, hi, label: xLabel }, { lo: 0, hi: top * 1.1, label: "draws" });
+  counts.forEach((c, k) => {
+    let d = `M${p.x(lo).toFixed(1)} ${p.y(0).toFixed(1)}`;
+    c.forEach((v, i) => {
+      const a = lo + ((hi - lo) * i) / bins;
+      const b = lo + ((hi - lo) * (i + 1)) / bins;
+      d += `L${p.x(a).toFixed(1)} ${p.y(v).toFixed(1)}L${p.x(b).toFixed(1)} ${p.y(v).toFixed(1)}`;
+    });
+    d += `L${p.x(hi).toFixed(1)} ${p.y(0).toFixed(1)}`;
+    p.plot.append(svg("path", { d, fill: hs[k].colour, "fill-opacity": 0.3, stroke: hs[k].colour, "stroke-width": 1.2 }));
+  });
+  let lx = 50;
+  hs.forEach((h) => {
+    root.append(svg("rect", { x: lx, y: 8, width: 12, height: 9, fill: h.colour, "fill-opacity": 0.4, stroke: h.colour }));
+    caption(root, lx + 16, 17, h.label, 11);
+    lx += 30 + h.label.length * 6.5;
+  });
+  return root;
+}

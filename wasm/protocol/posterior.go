@@ -9,6 +9,7 @@ import (
 	"math"
 
 	"lensbook/fit"
+	"lensbook/lens"
 )
 
 func init() {
@@ -46,6 +47,12 @@ type ModeOut struct {
 	Samples    int        `json:"samples"`
 	Status     string     `json:"status"`
 	Corner     Corner     `json:"corner"`
+	// Base holds the mode's fixed parameters and TRef its t0,par (full JD; 0
+	// when not fixed): with the corner draws they rebuild the mode
+	// (fit.NewDrawsMode) for the physical quantities and the forecast.
+	// Absent in results saved before those steps existed.
+	Base *lens.Params `json:"base,omitempty"`
+	TRef float64      `json:"tref,omitempty"`
 }
 
 // ParamOut is one marginal: median and the 16/84 % quantiles in exported units.
@@ -100,7 +107,11 @@ func stepPosterior(ctx context.Context, raw json.RawMessage, report func(Progres
 	var sums []fit.Summary
 	for _, m := range res.Modes {
 		mo := ModeOut{Label: m.Label, BestChi2: Num(m.Summary.BestChi2), Converged: m.Summary.Converged,
-			Reasons: m.Summary.Reasons, Status: m.Summary.Status.String()}
+			Reasons: m.Summary.Reasons, Status: m.Summary.Status.String(), TRef: m.TRef}
+		if m.Space != nil {
+			base := m.Space.Base
+			mo.Base = &base
+		}
 		if m.Chain != nil {
 			mo.Acceptance = Num(m.Chain.Acceptance())
 			mo.Steps = m.Chain.Steps

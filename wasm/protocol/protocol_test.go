@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"os"
 	"path/filepath"
+	"reflect"
 	"regexp"
 	"strconv"
 	"strings"
@@ -29,6 +30,34 @@ func TestTypeScriptMirror(t *testing.T) {
 	for _, k := range []string{KindProgress, KindResult, KindError, KindCancelled, `"cancel"`} {
 		if !strings.Contains(ts, strings.Trim(k, `"`)) {
 			t.Errorf("web/protocol.ts does not mention %s", k)
+		}
+	}
+	// Settings and results the page builds or reads field by field: every
+	// JSON field of the Go type is a field of the TypeScript interface of the
+	// same name (nested anonymous types: a field anywhere in the interface).
+	for _, c := range []struct {
+		name string
+		typ  any
+	}{
+		{"DrawsIn", DrawsIn{}}, {"PhysicalSettings", PhysicalSettings{}}, {"QuantityOut", QuantityOut{}},
+		{"PhysicalOut", PhysicalOut{}}, {"PhysicalOut", PhysicalMode{}},
+		{"ForecastSettings", ForecastSettings{}}, {"TimeDist", TimeDist{}},
+		{"ForecastOut", ForecastOut{}}, {"ForecastOut", ForecastMode{}},
+	} {
+		block := regexp.MustCompile(`(?s)export interface ` + c.name + ` \{\n(.*?)\n\}`).FindStringSubmatch(ts)
+		if block == nil {
+			t.Errorf("web/protocol.ts has no interface %s", c.name)
+			continue
+		}
+		rt := reflect.TypeOf(c.typ)
+		for i := range rt.NumField() {
+			tag, _, _ := strings.Cut(rt.Field(i).Tag.Get("json"), ",")
+			if tag == "" || tag == "-" {
+				continue
+			}
+			if !regexp.MustCompile(`(?m)^\s*` + regexp.QuoteMeta(tag) + `\??:`).MatchString(block[1]) {
+				t.Errorf("web/protocol.ts interface %s lacks the field %q of %s", c.name, tag, rt.Name())
+			}
 		}
 	}
 }

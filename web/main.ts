@@ -687,7 +687,7 @@ async function attachFile(k: number, file: string, text: string): Promise<void> 
   try {
     doc = await call<NotebookDoc>("attach", { notebook: doc, index: k, file, text });
   } catch (e) {
-    attachNotes.set(k, `${file} was not attached: ${(e as Error).message}`);
+    attachNotes.set(k, `${file} was not attached: ${(e as Error).message.replace(/^fit: /, "")}`);
     renderStep("data");
     return;
   }

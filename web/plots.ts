@@ -338,7 +338,7 @@ export function timeHistogramFigure(hs: Histogram[]): SVGSVGElement {
     return c;
   });
   const top = Math.max(1, ...counts.flat());
-  const p = new Panel(root, 50, 24, W - 70, H - 70, { lo, hi, label: xLabel }, { lo: 0, hi: top * 1.1, label: "draws" });
+  const p = new Panel(root, 60, 24, W - 80, H - 70, { lo, hi, label: xLabel }, { lo: 0, hi: top * 1.1, label: "draws" });
   counts.forEach((c, k) => {
     let d = `M${p.x(lo).toFixed(1)} ${p.y(0).toFixed(1)}`;
     c.forEach((v, i) => {
@@ -349,7 +349,7 @@ export function timeHistogramFigure(hs: Histogram[]): SVGSVGElement {
     d += `L${p.x(hi).toFixed(1)} ${p.y(0).toFixed(1)}`;
     p.plot.append(svg("path", { d, fill: hs[k].colour, "fill-opacity": 0.3, stroke: hs[k].colour, "stroke-width": 1.2 }));
   });
-  let lx = 50;
+  let lx = 60;
   hs.forEach((h) => {
     root.append(svg("rect", { x: lx, y: 8, width: 12, height: 9, fill: h.colour, "fill-opacity": 0.4, stroke: h.colour }));
     caption(root, lx + 16, 17, h.label, 11);

@@ -48,8 +48,14 @@ func Search(ctx context.Context, ev *Event, start lens.Params, set SearchSetting
 	return RefineGrid(ctx, ev, g, set)
 }
 
+// crossingRefineEvals caps the χ² evaluations of the caustic-crossing
+// refinement of one grid minimum (and of a partner of such a solution): each
+// costs a finite-source light curve.
+const crossingRefineEvals = 300
+
 // RefineGrid refines the best Keep distinct minima of a finished (possibly
-// merged) grid with all binary parameters free, removes duplicates (same
+// merged) grid with all binary parameters free (after a caustic-crossing grid,
+// first in the crossing coordinates with a finite source, see refineCrossing), removes duplicates (same
 // minimum reached twice, or one the mirror of another), finds each survivor's
 // partners and ranks everything by χ². Cancellation keeps the candidates
 // refined so far.
@@ -70,11 +76,23 @@ func RefineGrid(ctx context.Context, ev *Event, g *GridResult, set SearchSetting
 			break
 		}
 		rs := set.Refine
-		if len(rs.Specs.Free()) == 0 {
-			rs.Specs = DefaultSpecs(nd.Params)
-		}
+		st := nd.Params
 		l.ResetSolver()
-		sol, err := Refine(ctx, l, nd.Params, rs)
+		if g.Crossing != nil {
+			// the grid used a point source without the jumps: refine in the
+			// caustic-crossing coordinates with a finite source first
+			if p, _, _, ok := refineCrossing(ctx, l, st, g.Crossing, crossingRefineEvals); ok {
+				st = p
+			}
+			if ctx.Err() != nil {
+				res.Status = Cancelled
+				break
+			}
+		}
+		if len(rs.Specs.Free()) == 0 {
+			rs.Specs = DefaultSpecs(st)
+		}
+		sol, err := Refine(ctx, l, st, rs)
 		if err != nil && sol == nil {
 			return nil, err
 		}
@@ -104,7 +122,13 @@ func RefineGrid(ctx context.Context, ev *Event, g *GridResult, set SearchSetting
 		s.Label = fmt.Sprintf("solution %d", i+1)
 		c := Candidate{Solution: s, DeltaChi2: s.Chi2 - distinct[0].Chi2}
 		if !set.NoPartners && res.Status != Cancelled {
-			ps, err := Partners(ctx, l, s, RefineSettings{Specs: set.Refine.Specs, Opt: set.Refine.Opt, NoCov: set.Refine.NoCov})
+			ps0 := RefineSettings{Specs: set.Refine.Specs, Opt: set.Refine.Opt, NoCov: set.Refine.NoCov}
+			if g.Crossing != nil && ps0.Opt.MaxEval == 0 {
+				// a partner of a caustic crossing misses the crossing: a
+				// local fit from it only says how much worse it is
+				ps0.Opt.MaxEval = crossingRefineEvals
+			}
+			ps, err := Partners(ctx, l, s, ps0)
 			if err != nil {
 				return nil, err
 			}

@@ -1,0 +1,169 @@
+package fit
+
+import (
+	"math"
+	"sort"
+)
+
+// Jump is a step in the residuals of a smooth model: the signature of a caustic
+// crossing, where the magnification changes by a large factor within the time
+// the source disk takes to pass the caustic line (a fold entry or exit,
+// Schneider & Weiss 1986), while a smooth single-lens model changes little.
+type Jump struct {
+	T     float64 `json:"t"`     // time of the step (full JD)
+	Sigma float64 `json:"sigma"` // size of the step in σ of its estimate; > 0 for a rise
+	// Width is the time over which the residuals climb or fall (days): about
+	// the source disk's passage of the caustic, 2ρ·tE/sin θ (geometry).
+	Width   float64 `json:"width"`
+	Dataset int     `json:"dataset"`
+}
+
+// jumpWindows are the half-widths (days) of the two line fits that FindJumps
+// compares: each must hold at least 3 points, so the shortest suits dense
+// follow-up and the longest a survey cadence of a few points per night.
+var jumpWindows = []float64{0.1, 0.3, 1}
+
+// FindJumps returns the steps of the residuals res (any order, several
+// datasets) of at least minSigma, strongest first, at most max (≤ 0: all), no
+// two within 1 day. For every gap between consecutive points of a dataset it
+// fits a weighted straight line to the residuals on each side within a window
+// (jumpWindows) and takes the difference of the two lines at the gap over its
+// standard error; a smooth departure from the model bends the residuals but
+// does not break them. This is a two-segment change-point test (common
+// practice).
+func FindJumps(res []Residual, minSigma float64, max int) []Jump {
+	byDS := map[int][]Residual{}
+	for _, r := range res {
+		if isFinite(r.Norm) && r.Sigma > 0 {
+			byDS[r.Dataset] = append(byDS[r.Dataset], r)
+		}
+	}
+	var all []Jump
+	keys := make([]int, 0, len(byDS))
+	for k := range byDS {
+		keys = append(keys, k)
+	}
+	sort.Ints(keys)
+	for _, k := range keys {
+		rs := byDS[k]
+		sort.Slice(rs, func(i, j int) bool { return rs[i].T < rs[j].T })
+		for _, w := range jumpWindows {
+			lo, hi := 0, 0
+			for i := 1; i < len(rs); i++ {
+				tb := 0.5 * (rs[i-1].T + rs[i].T)
+				for lo < i && rs[lo].T < rs[i].T-w {
+					lo++
+				}
+				if hi < i {
+					hi = i
+				}
+				for hi < len(rs) && rs[hi].T < rs[i].T+w {
+					hi++
+				}
+				a1, v1, ok1 := lineAt(rs[lo:i], tb)
+				a2, v2, ok2 := lineAt(rs[i:hi], tb)
+				if !ok1 || !ok2 {
+					continue
+				}
+				all = append(all, Jump{T: tb, Sigma: (a2 - a1) / math.Sqrt(v1+v2), Dataset: k})
+			}
+		}
+	}
+	sort.SliceStable(all, func(i, j int) bool { return math.Abs(all[i].Sigma) > math.Abs(all[j].Sigma) })
+	var out []Jump
+	for _, j := range all {
+		if math.Abs(j.Sigma) < minSigma || (max > 0 && len(out) >= max) {
+			break
+		}
+		near := false
+		for _, o := range out {
+			if math.Abs(o.T-j.T) < 1 {
+				near = true
+				break
+			}
+		}
+		if !near {
+			j.Width = rampWidth(byDS[j.Dataset], j)
+			out = append(out, j)
+		}
+	}
+	return out
+}
+
+// lineAt fits r.Flux − r.Model = a + b·(t − t0) by weighted least squares and
+// returns a and its variance; it needs 3 points and two distinct times.
+func lineAt(rs []Residual, t0 float64) (a, va float64, ok bool) {
+	if len(rs) < 3 {
+		return 0, 0, false
+	}
+	var sw, st, sf, stt, stf float64
+	for _, r := range rs {
+		w := 1 / (r.Sigma * r.Sigma)
+		x := r.T - t0
+		y := r.Flux - r.Model
+		sw += w
+		st += w * x
+		sf += w * y
+		stt += w * x * x
+		stf += w * x * y
+	}
+	det := sw*stt - st*st
+	if !(det > 1e-12*sw*stt) {
+		return 0, 0, false
+	}
+	return (stt*sf - st*stf) / det, stt / det, true
+}
+
+// rampWidth estimates how long the residuals of a step take to climb from 20%
+// to 80% of the step (entry) or fall (exit), scaled to the full 0–100% passage
+// (÷ 0.6): from the points of its dataset within 1 day after a rise's start or
+// before a fall's end. It returns 0 when the points do not resolve the step.
+func rampWidth(rs []Residual, j Jump) float64 {
+	// residuals on the near side (before a rise, after a fall) set the
+	// base; the extreme within 1 day on the far side sets the top.
+	sign := 1.0
+	if j.Sigma < 0 {
+		sign = -1
+	}
+	var base, top float64
+	var nb int
+	topSet := false
+	tTop := j.T
+	for _, r := range rs {
+		d := (r.T - j.T) * sign // > 0 on the far side
+		y := r.Flux - r.Model
+		switch {
+		case d < 0 && d > -0.3:
+			base += y
+			nb++
+		case d > 0 && d < 1:
+			if !topSet || y*sign > top*sign {
+				top, tTop, topSet = y, r.T, true
+			}
+		}
+	}
+	if nb == 0 || !topSet {
+		return 0
+	}
+	base /= float64(nb)
+	y20, y80 := base+0.2*(top-base), base+0.8*(top-base)
+	t20, t80 := math.NaN(), math.NaN()
+	for _, r := range rs {
+		d := (r.T - j.T) * sign
+		dt := (tTop - r.T) * sign // > 0 before the top
+		if d < -0.3 || dt < 0 {
+			continue
+		}
+		y := r.Flux - r.Model
+		if (y-y20)*sign >= 0 && (math.IsNaN(t20) || (r.T-t20)*sign < 0) {
+			t20 = r.T
+		}
+		if (y-y80)*sign >= 0 && (math.IsNaN(t80) || (r.T-t80)*sign < 0) {
+			t80 = r.T
+		}
+	}
+	if math.IsNaN(t20) || math.IsNaN(t80) {
+		return 0
+	}
+	return math.Abs(t80-t20) / 0.6
+}

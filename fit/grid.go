@@ -309,6 +309,14 @@ func MergeGrid(parts ...*GridResult) (*GridResult, error) {
 		}
 		out.Evals += p.Evals
 		out.Points = p.Points
+		// every chunk reads the same anomaly from the same data; a part
+		// rebuilt from a lost worker's progress messages has none
+		if out.Crossing == nil {
+			out.Crossing = p.Crossing
+		}
+		if out.AnomalyT == 0 {
+			out.AnomalyT = p.AnomalyT
+		}
 		if p.Status != Converged {
 			out.Status = p.Status
 		}

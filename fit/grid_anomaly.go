@@ -115,55 +115,52 @@ func lineAt(rs []Residual, t0 float64) (a, va float64, ok bool) {
 }
 
 // rampWidth estimates how long the residuals of a step take to climb from 20%
-// to 80% of the step (entry) or fall (exit), scaled to the full 0–100% passage
-// (÷ 0.6): from the points of its dataset within 1 day after a rise's start or
-// before a fall's end. It returns 0 when the points do not resolve the step.
+// to 80% of the step, scaled to the full passage (÷ 0.6), from the points of its
+// dataset: the bright side of a caustic crossing is after a rise (entry) and
+// before a fall (exit). The base is the mean residual up to 0.3 d on the faint
+// side, the top the largest residual within 1 d on the bright side. It returns
+// 0 when the points do not resolve the step. A fold's finite-source profile is
+// steeper near its end than a ramp, so this underestimates the disk passage:
+// by a factor 1.6–2 on the caustic crossings of package problems (measured).
 func rampWidth(rs []Residual, j Jump) float64 {
-	// residuals on the near side (before a rise, after a fall) set the
-	// base; the extreme within 1 day on the far side sets the top.
-	sign := 1.0
+	dir := 1.0 // d = (t − T)·dir grows towards the bright side
 	if j.Sigma < 0 {
-		sign = -1
+		dir = -1
 	}
-	var base, top float64
-	var nb int
+	var base, top, dTop float64
+	nb := 0
 	topSet := false
-	tTop := j.T
 	for _, r := range rs {
-		d := (r.T - j.T) * sign // > 0 on the far side
+		d := (r.T - j.T) * dir
 		y := r.Flux - r.Model
-		switch {
-		case d < 0 && d > -0.3:
+		if d < 0 && d > -0.3 {
 			base += y
 			nb++
-		case d > 0 && d < 1:
-			if !topSet || y*sign > top*sign {
-				top, tTop, topSet = y, r.T, true
-			}
+		} else if d > 0 && d < 1 && (!topSet || y > top) {
+			top, dTop, topSet = y, d, true
 		}
 	}
-	if nb == 0 || !topSet {
+	if nb == 0 || !topSet || !(top > base/float64(nb)) {
 		return 0
 	}
 	base /= float64(nb)
 	y20, y80 := base+0.2*(top-base), base+0.8*(top-base)
-	t20, t80 := math.NaN(), math.NaN()
+	d20, d80 := math.Inf(1), math.Inf(1)
 	for _, r := range rs {
-		d := (r.T - j.T) * sign
-		dt := (tTop - r.T) * sign // > 0 before the top
-		if d < -0.3 || dt < 0 {
+		d := (r.T - j.T) * dir
+		if d <= -0.3 || d > dTop {
 			continue
 		}
 		y := r.Flux - r.Model
-		if (y-y20)*sign >= 0 && (math.IsNaN(t20) || (r.T-t20)*sign < 0) {
-			t20 = r.T
+		if y >= y20 && d < d20 {
+			d20 = d
 		}
-		if (y-y80)*sign >= 0 && (math.IsNaN(t80) || (r.T-t80)*sign < 0) {
-			t80 = r.T
+		if y >= y80 && d < d80 {
+			d80 = d
 		}
 	}
-	if math.IsNaN(t20) || math.IsNaN(t80) {
+	if math.IsInf(d20, 1) || math.IsInf(d80, 1) {
 		return 0
 	}
-	return math.Abs(t80-t20) / 0.6
+	return (d80 - d20) / 0.6
 }

@@ -237,7 +237,7 @@ func lmResiduals(ctx context.Context, res func(r, x []float64) float64, x, h []f
 			}
 		}
 		improved := false
-		for tries := 0; tries < 8 && evals < maxEval; tries++ {
+		for evals < maxEval && lambda < 1e10 {
 			Ad.CopySym(A)
 			for a := 0; a < n; a++ {
 				d := A.At(a, a)
@@ -264,7 +264,7 @@ func lmResiduals(ctx context.Context, res func(r, x []float64) float64, x, h []f
 				copy(x, xt)
 				copy(r0, r1)
 				c = ct
-				lambda = math.Max(lambda/10, 1e-9)
+				lambda = math.Max(lambda/10, 1e-7)
 				improved = true
 				break
 			}

@@ -104,7 +104,13 @@ func TestRecoverDemoEventFullGrid(t *testing.T) {
 	recoverBinary(t, problems.Demo(), 20240601, fit.GridSettings{})
 }
 
+// The caustic-crossing recoveries refine with a finite source (tens of ms per
+// χ² evaluation) and take a minute or more: skipped under -short (see
+// DEVELOPERS.md).
 func TestRecoverPlanetaryCausticCrossingSmallGrid(t *testing.T) {
+	if testing.Short() {
+		t.Skip("finite-source refinement of a caustic crossing (about a minute)")
+	}
 	s := problems.PlanetaryCaustic()
 	ls := math.Log10(s.Truth.S)
 	recoverBinary(t, s, 13, fit.GridSettings{LogSMin: ls - 0.1, LogSMax: ls + 0.1, NS: 5, LogQMin: -3.5, LogQMax: -2.5, NQ: 3})
@@ -118,6 +124,9 @@ func TestRecoverPlanetaryCausticCrossingFullGrid(t *testing.T) {
 }
 
 func TestRecoverResonantBinarySmallGrid(t *testing.T) {
+	if testing.Short() {
+		t.Skip("finite-source refinement of a caustic crossing (about 15 s native, longer under wasm)")
+	}
 	recoverBinary(t, problems.ResonantBinary(), 15, fit.GridSettings{LogSMin: -0.1, LogSMax: 0.1, NS: 5, LogQMin: -0.8, LogQMax: -0.2, NQ: 4})
 }
 

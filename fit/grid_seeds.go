@@ -7,60 +7,6 @@ import (
 	"lensbook/lens"
 )
 
-// causticPoint is a point on a caustic with the unit tangent there.
-type causticPoint struct {
-	Z, Tangent complex128
-}
-
-// causticSamples returns, for each closed caustic of b, m points equally
-// spaced in arc length (starting at the curve's first cusp, or its first point
-// when it has none), each with its tangent. n is the sampling of
-// lens.Caustics.
-func causticSamples(b lens.Binary, n, m int) [][]causticPoint {
-	var out [][]causticPoint
-	for _, c := range b.Caustics(n) {
-		z := c.Caustic
-		k := len(z)
-		if k < 3 {
-			continue
-		}
-		first := 0
-		if len(c.Cusps) > 0 {
-			first = c.Cusps[0]
-		}
-		cum := make([]float64, k+1)
-		for i := 0; i < k; i++ {
-			cum[i+1] = cum[i] + cmplx.Abs(z[(first+i+1)%k]-z[(first+i)%k])
-		}
-		total := cum[k]
-		if !(total > 0) {
-			continue
-		}
-		pts := make([]causticPoint, 0, m)
-		j := 0
-		for s := 0; s < m; s++ {
-			l := total * (float64(s) + 0.5) / float64(m)
-			for j < k-1 && cum[j+1] < l {
-				j++
-			}
-			a, bb := z[(first+j)%k], z[(first+j+1)%k]
-			seg := cum[j+1] - cum[j]
-			f := 0.0
-			if seg > 0 {
-				f = (l - cum[j]) / seg
-			}
-			d := bb - a
-			tg := complex(0, 0)
-			if ad := cmplx.Abs(d); ad > 0 {
-				tg = d / complex(ad, 0)
-			}
-			pts = append(pts, causticPoint{Z: a + complex(f, 0)*d, Tangent: tg})
-		}
-		out = append(out, pts)
-	}
-	return out
-}
-
 // chordParams returns t0, u0, tE, α of the straight trajectory that is at pin
 // at time tin and at pout at tout (tout > tin), with t0 and u0 referred to the
 // point c: the caustic-crossing parameterisation of Cassan (2008, A&A 491,

@@ -3,6 +3,7 @@ package fit_test
 import (
 	"context"
 	"encoding/json"
+	"math"
 	"reflect"
 	"testing"
 
@@ -145,4 +146,41 @@ func TestMirrorPartnerExact(t *testing.T) {
 		t.Fatalf("mirror χ² %v vs %v", c1, c0)
 	}
 	_ = sol
+}
+
+// With a caustic crossing in the data the grid adds the chord seeds and the
+// point source without the jump windows; chunks still merge to the grid of a
+// single chunk, bit for bit.
+func TestGridChunksMergeWithCrossing(t *testing.T) {
+	s := problems.PlanetaryCaustic()
+	ev := simulate(t, s, 3)
+	p := s.Truth.Params
+	start := lens.Params{T0: p.T0 - 0.04, U0: 0.111, TE: 29.7}
+	set := fit.GridSettings{LogSMin: 0.1, LogSMax: 0.16, NS: 2, LogQMin: -3.2, LogQMax: -3, NQ: 2, Seed: 5}
+	ctx := context.Background()
+	one, err := fit.RunGrid(ctx, ev, start, set, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if one.Crossing == nil || one.AnomalyT == 0 {
+		t.Fatalf("no caustic crossing (%+v) or anomaly time (%v) read from the planetary-caustic event", one.Crossing, one.AnomalyT)
+	}
+	if tin, tout := one.Crossing.TIn-p.T0, one.Crossing.TOut-p.T0; math.Abs(tin-15.78) > 0.3 || math.Abs(tout-17.31) > 0.3 {
+		t.Errorf("crossing read at t0 %+.3f, %+.3f d; the truth's trajectory crosses at +15.78, +17.31 d", tin, tout)
+	}
+	var parts []*fit.GridResult
+	for c := range 2 {
+		g, err := fit.RunGridChunk(ctx, ev, start, set, c, 2, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		parts = append(parts, g)
+	}
+	merged, err := fit.MergeGrid(parts[1], parts[0])
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !reflect.DeepEqual(one.Nodes, merged.Nodes) || !reflect.DeepEqual(one.Crossing, merged.Crossing) {
+		t.Fatalf("merged chunks differ from one chunk:\n one    %+v\n merged %+v", one.Nodes, merged.Nodes)
+	}
 }

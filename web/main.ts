@@ -878,7 +878,7 @@ function fullDoc(): NotebookDoc | undefined {
     if (pn.result === undefined) continue;
     // the forecast's export files are large and remade by running it again
     const result = id === "forecast" ? { ...(pn.result as ForecastOut), exports: undefined } : pn.result;
-    out.push({ id, kind: PANEL_KIND[id], settings: pn.settings, seed: String(seed), status: "done", result, note: pn.stale ? "stale: inputs changed after this result" : undefined });
+    out.push({ id, kind: PANEL_KIND[id], settings: pn.settings, seed: String(pn.seed ?? seed), status: "done", result, note: pn.stale ? "stale: inputs changed after this result" : undefined });
   }
   return { ...doc, steps: out };
 }
@@ -932,6 +932,7 @@ function adoptDoc(d: NotebookDoc): void {
       pn.result = s.result as (PhysicalOut & ForecastOut) | undefined;
       pn.status = s.status === "done" && s.result ? "done" : "empty";
       pn.stale = !!s.note?.startsWith("stale");
+      pn.seed = Number.isFinite(Number(s.seed)) && s.seed !== "" ? Number(s.seed) : undefined;
       continue;
     }
     const id = STEP_ORDER.find((k) => STEP_KIND[k] === s.kind || k === s.id);

@@ -19,6 +19,8 @@ export interface PanelState<S, R> {
   stale: boolean;
   message?: string;
   job?: Job<unknown>;
+  /** The seed the result was made with (saved with it). */
+  seed?: number;
 }
 
 /** What the panels need from the page. */
@@ -48,6 +50,7 @@ export function drawsOf(p: PosteriorResult | undefined): DrawsIn[] {
 export async function runPanel<R>(host: PanelHost, state: PanelState<unknown, R>, step: string, settings: unknown, box: string): Promise<void> {
   state.status = "running";
   state.message = "";
+  const seed = host.seed();
   const started = performance.now();
   host.update();
   const job = host.pool.run<R>(step, settings, (p: Progress) => {
@@ -68,6 +71,7 @@ export async function runPanel<R>(host: PanelHost, state: PanelState<unknown, R>
       state.message = "Cancelled; the previous result (if any) is kept.";
     } else {
       state.result = r.result as R;
+      state.seed = seed;
       state.status = "done";
       state.stale = false;
       state.message = `Finished in ${fmtDuration(performance.now() - started)}.`;

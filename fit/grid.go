@@ -33,7 +33,9 @@ type GridSettings struct {
 	// gives the same grid bit for bit on one platform.
 	Seed uint64 `json:"seed"`
 	// Rho is the source size held fixed during the grid; 0 means the start's ρ
-	// (a point source when the start has none).
+	// (a point source when the start has none). With a caustic crossing in the
+	// data (GridResult.Crossing) the grid uses a point source instead and the
+	// refinement fits ρ.
 	Rho float64 `json:"rho"`
 	// FreeRho lets ρ vary at each node (only when the node's ρ > 0).
 	FreeRho bool `json:"freeRho"`

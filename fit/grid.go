@@ -169,8 +169,9 @@ type GridResult struct {
 	Nodes    []GridNode   `json:"nodes"` // every node of the grid, in Index order
 	Status   Status       `json:"status"`
 	Evals    int          `json:"evals"`
-	// Points is the number of (binned) points the grid χ² values refer to; they
-	// are comparable with each other, not with χ² on the full data.
+	// Points is the number of (binned; with a Crossing, unmasked) points the
+	// grid χ² values refer to; they are comparable with each other, not with
+	// χ² on the full data.
 	Points int `json:"points"`
 	// AnomalyT is the anomaly time the caustic-centre seeds aimed at (full
 	// JD; 0: none, the anomaly was at the peak or not found).

@@ -65,6 +65,7 @@ func (r *SingleResult) Best() *Solution {
 // found away from the peak (more than 0.1 tE from t0 of GridStart), else 0:
 // the value for GridSettings.AnomalyT (a planetary-caustic signature; an
 // anomaly at the peak comes from the central caustic and needs no such seed).
+// The grid reads the same from the residuals of its start when AnomalyT is 0.
 func (r *SingleResult) AnomalyTime() float64 {
 	a := r.Anomaly
 	if !a.Found {

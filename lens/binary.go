@@ -274,101 +274,22 @@ func (s *Solver) Mag(zeta complex128) (float64, error) {
 
 func finite(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }
 
-// coefficients fills s.c and s.deg with the lens polynomial of Witt (1990) for
-// source zeta, in the construction of references.md §3: with D = (z−z1)(z−z2),
-// N = m1(z−z2) + m2(z−z1) and Pi = (ζ̄ − zi)D + N,
-// p(z) = (z − ζ)P1P2 − D(m1P2 + m2P1).
-// It follows from the conjugated lens equation z̄ = ζ̄ + N/D, which gives
-// z̄ − zi = Pi/D, substituted into the lens equation.
-func (s *Solver) coefficients(zeta complex128) {
-	a, b, m1, m2 := s.z1, s.z2, s.m1, s.m2
-	zb := complex(real(zeta), -imag(zeta))
-	// D = z² − (a+b)z + ab (real coefficients).
-	d1, d0 := -(a + b), a*b
-	// N = z − (m1 b + m2 a).
-	n0 := -(m1*b + m2*a)
-	w1, w2 := zb-complex(a, 0), zb-complex(b, 0)
-	// P1 = w1 z² + (w1 d1 + 1) z + (w1 d0 + n0); likewise P2.
-	p12, p11, p10 := w1, w1*complex(d1, 0)+1, w1*complex(d0, 0)+complex(n0, 0)
-	p22, p21, p20 := w2, w2*complex(d1, 0)+1, w2*complex(d0, 0)+complex(n0, 0)
-	// Q = P1·P2 (degree 4).
-	q4 := p12 * p22
-	q3 := p12*p21 + p11*p22
-	q2 := p12*p20 + p11*p21 + p10*p22
-	q1 := p11*p20 + p10*p21
-	q0 := p10 * p20
-	// R = m1 P2 + m2 P1 (degree 2).
-	cm1, cm2 := complex(m1, 0), complex(m2, 0)
-	r2 := cm1*p22 + cm2*p12
-	r1 := cm1*p21 + cm2*p11
-	r0 := cm1*p20 + cm2*p10
-	// (z − ζ)Q − D·R.
-	cd1, cd0 := complex(d1, 0), complex(d0, 0)
-	s.c[5] = q4
-	s.c[4] = q3 - zeta*q4 - r2
-	s.c[3] = q2 - zeta*q3 - (r1 + cd1*r2)
-	s.c[2] = q1 - zeta*q2 - (r0 + cd1*r1 + cd0*r2)
-	s.c[1] = q0 - zeta*q1 - (cd1*r0 + cd0*r1)
-	s.c[0] = -zeta*q0 - cd0*r0
-	s.deg = 5
-	if s.c[5] == 0 {
-		// The source sits exactly on a lens: one root went to infinity.
-		s.deg = 4
-	}
+// geom is the lens in the working frame (the lighter lens at the origin).
+func (s *Solver) geom() fsLens {
+	return fsLens{z1: s.z1, z2: s.z2, m1: s.m1, m2: s.m2, b: s.b}
 }
 
-// coldStart places the initial roots. Kind 0 uses the physical picture of a
-// binary lens: the major image near the source displaced by both deflections,
-// one minor image next to each lens (first-order solutions of the lens
-// equation there), and two guesses off the axis on the Einstein ring, where
-// the extra pair of a five-image source lies. Kinds 1 and 2 use the classical
-// Aberth ring around the root centroid, with a radius from a Fujiwara-type
-// bound (full and halved). Guesses need only be distinct; a bad set costs
-// sweeps, not correctness.
+// coefficients fills s.c and s.deg with the lens polynomial of Witt (1990)
+// for source zeta (working frame), built by fsLens.poly.
+func (s *Solver) coefficients(zeta complex128) {
+	l := s.geom()
+	s.deg = l.poly(&s.c, zeta, 0)
+}
+
+// coldStart places the initial roots (fsLens.coldStart).
 func (s *Solver) coldStart(kind int, zeta complex128) {
-	n := s.deg
-	if kind == 0 && n == 5 {
-		a, b := complex(s.z1, 0), complex(s.z2, 0)
-		m1, m2 := complex(s.m1, 0), complex(s.m2, 0)
-		conj := func(z complex128) complex128 { return complex(real(z), -imag(z)) }
-		cm := complex(-s.o, 0) // centre of mass in the working frame
-		s.roots[0] = zeta + cdiv(m1, conj(zeta-a)) + cdiv(m2, conj(zeta-b))
-		s.roots[1] = a + cdiv(m1, conj(a-zeta-cdiv(m2, a-b)))
-		s.roots[2] = b + cdiv(m2, conj(b-zeta-cdiv(m1, b-a)))
-		s.roots[3] = cm + complex(0.13, 0.97)
-		s.roots[4] = cm + complex(-0.11, -1.03)
-		ok := true
-		for k := 0; k < n && ok; k++ {
-			ok = finite(real(s.roots[k])) && finite(imag(s.roots[k]))
-			for j := 0; j < k && ok; j++ {
-				ok = s.roots[k] != s.roots[j]
-			}
-		}
-		if ok {
-			return
-		}
-		kind = 1
-	}
-	lead := s.c[n]
-	cen := -s.c[n-1] / (complex(float64(n), 0) * lead)
-	r := 0.0
-	for k := 1; k <= n; k++ {
-		v := math.Pow(cabs(s.c[n-k]/lead), 1/float64(k))
-		if v > r {
-			r = v
-		}
-	}
-	if !(r > 0) || math.IsInf(r, 0) {
-		r = 1
-	}
-	if kind == 2 {
-		r *= 0.5
-	}
-	off := 0.4 + 0.7*float64(kind)
-	for k := 0; k < n; k++ {
-		sn, cs := math.Sincos(2*math.Pi*float64(k)/float64(n) + off)
-		s.roots[k] = cen + complex(r*cs, r*sn)
-	}
+	l := s.geom()
+	l.coldStart(&s.roots, &s.c, s.deg, kind, zeta)
 }
 
 // cabs is |z| without the overflow care of cmplx.Abs (arguments here are far

@@ -2,6 +2,7 @@ package lens
 
 import (
 	"math"
+	"math/bits"
 )
 
 // Contour integration of a uniform circular source.
@@ -10,7 +11,7 @@ import (
 // by the source area. By Green's theorem each image area is ½∮ Im(z̄ dz) along the
 // image boundary (Gould & Gaucherel 1997, ApJ 477, 580; Dominik 1998, A&A 333,
 // L79). The image boundaries are the images of the source boundary
-// ζ(θ) = ζc + r e^{iθ}: we sample θ, solve the five roots of the lens polynomial
+// ζ(θ) = ζc + r e^{iθ}: we sample θ, find the five roots of the lens polynomial
 // at each sample and follow them from sample to sample. A positive-parity image
 // runs along its boundary in the sense of θ, a negative one against it, so each
 // true-image segment contributes its oriented area times its parity. Where the
@@ -23,10 +24,27 @@ import (
 // Each segment uses the trapezoid term ½Im(z̄ₐ z_b) plus the parabolic
 // correction (Δθ³/24)[Im(ż̄ z̈)ₐ + Im(ż̄ z̈)_b] of Bozza (2010, MNRAS 408, 2188),
 // with ż and z̈ the analytic derivatives of the image position along the
-// boundary. The error of a segment is estimated, after Bozza (2010), from the
-// disagreement of the two end-point curvature terms and from the mismatch
-// between the chord and the tangents; the interval of θ with the largest
-// estimate is bisected until the total estimate meets the tolerance.
+// boundary, plus the next (h⁵) term of the same expansion, derived here from
+// the same end-point data (see interval). The error of a segment is the h⁵
+// term times its ratio to the h³ term, both without cancellation; the interval
+// of θ with the largest estimate is bisected until the total estimate meets
+// the tolerance.
+//
+// Robustness. The samples start at 8 equally spaced angles plus one between
+// any two caustic crossings of the boundary (from the sampled caustics,
+// causticMap.crossings) that they would not separate: two crossings between
+// neighbouring samples leave the image count unchanged and the pair created
+// and destroyed in between unseen. A join whose pair is not young (ctFresh)
+// is charged the loop the pair may have swept. An interval whose roots cannot
+// be matched consistently keeps best-guess terms, so that the image
+// boundaries stay closed, and is charged a local bound (contour.local).
+//
+// Speed. A bisection point lies between two samples whose images are known
+// with their derivatives: its images are found by Newton's method on the lens
+// equation from cubic Hermite predictions and the two spurious roots from the
+// quadratic left after dividing them out of the polynomial (fsLens.track);
+// the Aberth iteration on all five roots (fsLens.solve) is the fallback.
+// Most samples then cost a few lens-equation evaluations.
 
 // ctSample is one point of the source boundary with its roots, and the interval
 // of θ from it to the next sample.
@@ -34,9 +52,20 @@ type ctSample struct {
 	th  float64 // boundary angle (rad), increasing along the list
 	r   fsRoots
 	dz  [5]complex128 // dz/dθ of each image
+	d2z [5]complex128 // d²z/dθ² of each image
 	pc  [5]float64    // Im(conj(ż)·z̈) of each image
+	pos uint8         // bit k: root k is an image of positive parity
 	nxt int32         // index of the next sample (the list is circular)
 	ver uint32        // bumped whenever the interval to nxt changes
+
+	// perm[k] is the root at nxt that continues root k here (−1: none), as
+	// matched by interval; track has bit k set when both are images of the
+	// same parity (one image track). They seed the roots of a bisection.
+	perm  [5]int8
+	track uint8
+	clean bool // the interval's tracks matched consistently (not broken)
+
+	tracked bool // the roots were found by fsLens.track from the previous sample's
 
 	area   float64 // parity-signed image area contributed by the interval
 	err    float64 // its estimated absolute error
@@ -51,23 +80,45 @@ type ctItem struct {
 
 // contour is the reusable workspace of one uniform-disk integration.
 type contour struct {
-	s    []ctSample
-	heap []ctItem
+	s     []ctSample
+	heap  []ctItem
+	ths   []float64 // initial sample angles
+	cross []float64 // caustic crossings of the boundary
 	// Samples counts the boundary points solved by the last integration.
 	samples int
 }
 
 const (
-	ctInitial    = 8    // initial samples on the boundary
+	ctInitial    = 8    // equally spaced initial samples on the boundary
 	ctMaxSamples = 4000 // cap on boundary samples per contour (the error estimate is returned either way)
-	ctMinStep    = 1e-7 // rad: intervals shorter than this are not bisected (below it the image/ghost call near a caustic is round-off)
+	// An interval is not bisected once its arc r·h on the source boundary is
+	// below ctMinArc·(1 + |zc|): next to a caustic crossing at θc the merging
+	// pair sits δ ≈ r|θ − θc| from the caustic with positions uncertain by
+	// ε/δ relative (ε the round-off of the source position), so closer
+	// samples are noise.
+	ctMinArc = 1e-13
 )
 
 // disk returns the parity-signed total image area of a uniform disk of radius r
 // centred at zc and its estimated absolute error, refining until the error is
 // at most tol times the area. warm, if not nil, seeds the first root solve.
 // ok is false if a root solve failed.
-func (c *contour) disk(l *fsLens, zc complex128, r, tol float64, warm *[5]complex128) (area, errEst float64, ok bool) {
+func (c *contour) disk(l0 *fsLens, zc complex128, r, tol float64, warm *[5]complex128) (area, errEst float64, ok bool) {
+	// Work in the frame of the polynomial (the lighter lens at the origin):
+	// the area terms ½Im(z̄a zb) of images next to a planet then keep the
+	// digits that the centre-of-mass frame spends on the planet's position.
+	// Areas do not depend on the frame.
+	o := l0.o
+	lw := l0.shifted(o)
+	l := &lw
+	zc -= complex(o, 0)
+	if warm != nil {
+		w := *warm
+		for k := range w {
+			w[k] -= complex(o, 0)
+		}
+		warm = &w
+	}
 	c.s = c.s[:0]
 	c.heap = c.heap[:0]
 	c.samples = 0
@@ -75,17 +126,27 @@ func (c *contour) disk(l *fsLens, zc complex128, r, tol float64, warm *[5]comple
 	// source boundary symmetric about the axis would put roots on symmetric
 	// degenerate points.
 	const off = 0.1234567
-	n := ctInitial
-	for k := 0; k < n; k++ {
-		th := off + 2*math.Pi*float64(k)/float64(n)
+	ths := c.seeds(l0, zc+complex(o, 0), r, off)
+	n := len(ths)
+	for k, th := range ths {
 		var w *[5]complex128
+		var pred [5]complex128
+		imgs := uint8(0)
 		if k == 0 {
 			w = warm
 		} else {
-			w = &c.s[k-1].r.z
+			// Second-order Taylor steps of the previous sample's images,
+			// for fsLens.track; its spurious roots stay where they were.
+			p := &c.s[k-1]
+			dh := th - p.th
+			pred = p.r.z
+			for j := 0; j < 5; j++ {
+				pred[j] += (p.dz[j] + p.d2z[j]*complex(dh/2, 0)) * complex(dh, 0)
+			}
+			w, imgs = &pred, p.r.img
 		}
 		c.s = append(c.s, ctSample{th: th, nxt: int32((k + 1) % n)})
-		if !c.solveAt(l, zc, r, int32(k), w) {
+		if !c.solveAt(l, zc, r, int32(k), w, imgs) {
 			return 0, 0, false
 		}
 	}
@@ -98,12 +159,13 @@ func (c *contour) disk(l *fsLens, zc complex128, r, tol float64, warm *[5]comple
 	}
 	bad := r * r * a0
 	for k := range c.s {
-		c.interval(int32(k), bad)
+		c.interval(int32(k), bad, nil)
 		c.push(int32(k))
 	}
 	// The totals are kept by differences while refining (summing afresh each
 	// round would be O(n²)) and recomputed exactly at the end.
 	area, errEst = c.totals()
+	minArc := ctMinArc * (1 + fsAbs(zc))
 	for errEst > tol*math.Abs(area) && len(c.heap) > 0 && len(c.s) < ctMaxSamples {
 		it := c.pop()
 		a := &c.s[it.i]
@@ -116,21 +178,41 @@ func (c *contour) disk(l *fsLens, zc complex128, r, tol float64, warm *[5]comple
 			thb += 2 * math.Pi
 		}
 		h := thb - a.th
-		if h < ctMinStep {
+		if r*h < minArc {
+			// Round-off: no further bisection. The Taylor-based estimates
+			// mean nothing at this scale; the local bound does.
 			a.frozen = true
+			if l := c.local(a, &c.s[b]); l < a.err {
+				errEst += l - a.err
+				a.err = l
+			}
 			continue
 		}
 		m := int32(len(c.s))
 		c.s = append(c.s, ctSample{th: a.th + h/2, nxt: b})
 		a = &c.s[it.i]
-		if !c.solveAt(l, zc, r, m, &a.r.z) {
+		pred := c.predict(a, &c.s[b], h)
+		imgs := a.track
+		if n := bits.OnesCount8(imgs); n != bits.OnesCount8(a.r.img) || n != bits.OnesCount8(c.s[b].r.img) {
+			imgs = 0
+		}
+		if !c.solveAt(l, zc, r, m, &pred, imgs) {
 			return 0, 0, false
 		}
 		oldA, oldE := a.area, a.err
 		a.nxt = m
 		a.ver++
-		c.interval(it.i, bad)
-		c.interval(m, bad)
+		if c.s[m].tracked && a.clean {
+			// The new roots are in a's order and continue a's tracks
+			// (fsLens.track checked it): no matching needed.
+			perm := a.perm
+			id := [5]int8{0, 1, 2, 3, 4}
+			c.interval(it.i, bad, &id)
+			c.interval(m, bad, &perm)
+		} else {
+			c.interval(it.i, bad, nil)
+			c.interval(m, bad, nil)
+		}
 		area += c.s[it.i].area + c.s[m].area - oldA
 		errEst += c.s[it.i].err + c.s[m].err - oldE
 		c.push(it.i)
@@ -138,6 +220,47 @@ func (c *contour) disk(l *fsLens, zc complex128, r, tol float64, warm *[5]comple
 	}
 	area, errEst = c.totals()
 	return area, errEst, true
+}
+
+// seeds returns the initial sample angles, increasing from off: ctInitial
+// equally spaced, plus one between any two consecutive caustic crossings of
+// the boundary (causticMap.crossings) that no other sample separates.
+func (c *contour) seeds(l *fsLens, zc complex128, r, off float64) []float64 {
+	const step = 2 * math.Pi / ctInitial
+	th := c.ths[:0]
+	for k := 0; k < ctInitial; k++ {
+		th = append(th, off+step*float64(k))
+	}
+	c.cross = causticFor(l.b).crossings(c.cross[:0], zc, r, off)
+	nc := len(c.cross)
+	for i := 0; i < nc && nc > 1; i++ {
+		t0, t1 := c.cross[i], 0.0
+		if i+1 < nc {
+			t1 = c.cross[i+1]
+		} else {
+			t1 = c.cross[0] + 2*math.Pi
+		}
+		if t1-t0 < 1e-12 {
+			continue
+		}
+		// The first equally spaced sample after t0.
+		k := math.Floor((t0-off)/step) + 1
+		if off+k*step < t1 {
+			continue
+		}
+		m := (t0 + t1) / 2
+		if m >= off+2*math.Pi {
+			m -= 2 * math.Pi
+		}
+		th = append(th, m)
+	}
+	for i := ctInitial; i < len(th); i++ {
+		for j := i; j > 0 && th[j] < th[j-1]; j-- {
+			th[j], th[j-1] = th[j-1], th[j]
+		}
+	}
+	c.ths = th
+	return th
 }
 
 func (c *contour) totals() (area, errEst float64) {
@@ -149,13 +272,22 @@ func (c *contour) totals() (area, errEst float64) {
 }
 
 // solveAt solves the roots of sample i and their boundary derivatives.
-func (c *contour) solveAt(l *fsLens, zc complex128, r float64, i int32, warm *[5]complex128) bool {
+//
+// With imgs ≠ 0 the sample lies between two whose images in imgs continue
+// along their tracks, and fsLens.track is tried first.
+func (c *contour) solveAt(l *fsLens, zc complex128, r float64, i int32, warm *[5]complex128, imgs uint8) bool {
 	p := &c.s[i]
 	c.samples++
+	var sn, cs float64
 	for try := 0; ; try++ {
-		sn, cs := math.Sincos(p.th)
+		sn, cs = math.Sincos(p.th)
 		e := complex(cs, sn)
 		zeta := zc + complex(r, 0)*e
+		p.tracked = false
+		if imgs != 0 && try == 0 && l.track(&p.r, zeta, warm, imgs) {
+			p.tracked = true
+			break
+		}
 		if !l.solve(&p.r, zeta, warm) {
 			return false
 		}
@@ -166,14 +298,15 @@ func (c *contour) solveAt(l *fsLens, zc complex128, r float64, i int32, warm *[5
 		// hair along the boundary.
 		p.th += 1e-9
 	}
-	sn, cs := math.Sincos(p.th)
 	e := complex(cs, sn)
 	d1 := complex(0, r) * e // dζ/dθ
 	d2 := -complex(r, 0) * e
 	m1, m2 := complex(l.m1, 0), complex(l.m2, 0)
+	// Boundary derivatives of the images: with ζ′ = ż + ḡ ż̄ (g = Σ mi/(z−zi)²)
+	// ż = (ζ′ − ḡ ζ̄′)/det J, and likewise z̈ from ζ″ = z̈ + ḡ z̈̄ + ḡ′ ż̄²
+	// (derived here). det J is recomputed at the final root.
 	for k := 0; k < p.r.n; k++ {
 		if !p.r.isImg(k) {
-			p.dz[k], p.pc[k] = 0, 0
 			continue
 		}
 		z := p.r.z[k]
@@ -182,21 +315,99 @@ func (c *contour) solveAt(l *fsLens, zc complex128, r float64, i int32, warm *[5
 		g := m1*h12 + m2*h22
 		g1 := -2 * (m1*h12*h1 + m2*h22*h2)
 		gb := fsConj(g)
-		iD := complex(1/(1-fsAbs2(g)), 0)
+		det := 1 - fsAbs2(g)
+		p.r.det[k] = det
+		iD := complex(1/det, 0)
 		zp := (d1 - gb*fsConj(d1)) * iD
 		czp := fsConj(zp)
 		R := d2 - fsConj(g1)*czp*czp
 		zpp := (R - gb*fsConj(R)) * iD
 		p.dz[k] = zp
+		p.d2z[k] = zpp
 		p.pc[k] = fsCross(zp, zpp)
 	}
+	ctParity(&p.r)
+	p.pos = 0
+	for k := 0; k < 5; k++ {
+		if !p.r.isImg(k) {
+			p.dz[k], p.d2z[k], p.pc[k] = 0, 0, 0
+		} else if p.r.det[k] > 0 {
+			p.pos |= 1 << k
+		}
+	}
 	return true
+}
+
+// ctParity enforces the image-parity rule n− − n+ = 1 of a two-point-mass
+// lens (Burke 1981, ApJ 244, L1) on a boundary sample. A sample within
+// round-off of a caustic has a pair of images on the critical curve whose
+// det J signs are noise (both negative, say); such a pair has no extent yet,
+// so it is taken as not created: the two images with the smallest |det J|
+// become spurious roots when that leaves a valid set of three.
+func ctParity(r *fsRoots) {
+	npos, nneg := 0, 0
+	i0, i1 := -1, -1
+	for k := 0; k < r.n; k++ {
+		if !r.isImg(k) {
+			continue
+		}
+		if r.det[k] > 0 {
+			npos++
+		} else {
+			nneg++
+		}
+		d := math.Abs(r.det[k])
+		switch {
+		case i0 < 0 || d < math.Abs(r.det[i0]):
+			i0, i1 = k, i0
+		case i1 < 0 || d < math.Abs(r.det[i1]):
+			i1 = k
+		}
+	}
+	if npos+nneg != 5 || nneg-npos == 1 {
+		return
+	}
+	for _, k := range [2]int{i0, i1} {
+		if r.det[k] > 0 {
+			npos--
+		} else {
+			nneg--
+		}
+	}
+	if nneg-npos == 1 {
+		r.img &^= 1<<i0 | 1<<i1
+	}
+}
+
+// predict returns starting roots for the midpoint of the interval from a to
+// b (of length h), in the root order of a: the cubic Hermite midpoint
+// (za+zb)/2 + (ża−żb)h/8 on an image track, the mean of the two ends for
+// other matched roots, a's root where no match is known. Good starts halve
+// the Aberth sweeps of a boundary sample.
+func (c *contour) predict(a, b *ctSample, h float64) [5]complex128 {
+	p := a.r.z
+	for k := 0; k < a.r.n; k++ {
+		j := a.perm[k]
+		if j < 0 {
+			continue
+		}
+		zb := b.r.z[j]
+		if a.track&(1<<k) != 0 {
+			p[k] = (p[k]+zb)*0.5 + (a.dz[k]-b.dz[j])*complex(h/8, 0)
+		} else {
+			p[k] = (p[k] + zb) * 0.5
+		}
+	}
+	return p
 }
 
 // interval computes the area and error of the interval from sample i to its
 // successor. bad is the error charged to an interval whose root tracks cannot
 // be matched consistently (per radian of θ).
-func (c *contour) interval(i int32, bad float64) {
+//
+// hint, if not nil, is the matching of the roots at i to those at the next
+// sample, known from the way the later was solved.
+func (c *contour) interval(i int32, bad float64, hint *[5]int8) {
 	a := &c.s[i]
 	b := &c.s[a.nxt]
 	h := b.th - a.th
@@ -204,147 +415,204 @@ func (c *contour) interval(i int32, bad float64) {
 		h += 2 * math.Pi
 	}
 	a.area, a.err = 0, 0
-	n := a.r.n
-	if b.r.n < n {
-		n = b.r.n
-	}
-	// Match roots at a to roots at b: predicted midpoints, greedy on distance.
+	a.perm = [5]int8{-1, -1, -1, -1, -1}
+	a.track = 0
+	na, nbr := a.r.n, b.r.n
+	imgA, imgB := a.r.img, b.r.img
+	posA, posB := a.pos, b.pos
+	// Match roots at a to roots at b by their predicted midpoints; two true
+	// images of opposite parity are never the same track.
 	var pa, pb [5]complex128
+	hh := complex(h/2, 0)
 	for k := 0; k < 5; k++ {
-		pa[k] = a.r.z[k] + a.dz[k]*complex(h/2, 0)
-		pb[k] = b.r.z[k] - b.dz[k]*complex(h/2, 0)
+		pa[k] = a.r.z[k] + a.dz[k]*hh
+		pb[k] = b.r.z[k] - b.dz[k]*hh
 	}
-	// Cost: distance between predicted positions; two true images of
-	// opposite parity are never the same track.
 	var cost [5][5]float64
-	for ii := 0; ii < a.r.n; ii++ {
-		for jj := 0; jj < b.r.n; jj++ {
+	var perm, inv [5]int8
+	var usedB uint8
+	inf := math.Inf(1)
+	usedA := uint8(1)<<na - 1
+	broken := false
+	if hint != nil && na == 5 && nbr == 5 {
+		perm, usedB = *hint, usedA
+		goto matched
+	}
+	for ii := 0; ii < na; ii++ {
+		best, bj := inf, 0
+		// conflict: the roots at b of the opposite image parity
+		conflict := uint8(0)
+		if imgA&(1<<ii) != 0 {
+			conflict = imgB & (posB ^ -((posA >> ii) & 1))
+		}
+		for jj := 0; jj < nbr; jj++ {
 			d := fsAbs2(pa[ii] - pb[jj])
-			if a.r.isImg(ii) && b.r.isImg(jj) && (a.r.det[ii] > 0) != (b.r.det[jj] > 0) {
-				d = math.Inf(1)
+			if conflict&(1<<jj) != 0 {
+				d = inf
 			}
 			cost[ii][jj] = d
-		}
-	}
-	var perm [5]int8
-	var usedA, usedB uint8
-	for step := 0; step < n; step++ {
-		best, bi, bj := math.Inf(1), -1, -1
-		for ii := 0; ii < a.r.n; ii++ {
-			if usedA&(1<<ii) != 0 {
-				continue
-			}
-			for jj := 0; jj < b.r.n; jj++ {
-				if usedB&(1<<jj) != 0 {
-					continue
-				}
-				if d := cost[ii][jj]; d < best || bi < 0 {
-					best, bi, bj = d, ii, jj
-				}
+			if d < best {
+				best, bj = d, jj
 			}
 		}
-		perm[bi] = int8(bj)
-		usedA |= 1 << bi
+		perm[ii] = int8(bj)
 		usedB |= 1 << bj
 	}
-	broken := false
+	if na != nbr || usedB != usedA {
+		// The nearest partners are not a one-to-one map: greedy matching on
+		// the cost, cheapest pair first.
+		usedA, usedB = 0, 0
+		for step := min(na, nbr); step > 0; step-- {
+			best, bi, bj := inf, -1, -1
+			for ii := 0; ii < na; ii++ {
+				if usedA&(1<<ii) != 0 {
+					continue
+				}
+				for jj := 0; jj < nbr; jj++ {
+					if usedB&(1<<jj) != 0 {
+						continue
+					}
+					if d := cost[ii][jj]; d < best || bi < 0 {
+						best, bi, bj = d, ii, jj
+					}
+				}
+			}
+			perm[bi] = int8(bj)
+			usedA |= 1 << bi
+			usedB |= 1 << bj
+		}
+	}
+	for ii := 0; ii < na; ii++ {
+		if usedA&(1<<ii) != 0 {
+			inv[perm[ii]] = int8(ii)
+		}
+	}
 	// The matching must be unambiguous: each root's partner clearly nearer
 	// than any rival root at b, unless exchanging the two partners changes
 	// nothing (both a-roots spurious, or both b-roots spurious). Otherwise the
 	// roots moved too far for the sampling and the interval must be bisected.
-	var inv [5]int8
-	for ii := 0; ii < a.r.n; ii++ {
-		inv[perm[ii]] = int8(ii)
-	}
-	for ii := 0; ii < a.r.n && !broken; ii++ {
+	for ii := 0; ii < na && !broken; ii++ {
+		if usedA&(1<<ii) == 0 {
+			continue
+		}
 		j := int(perm[ii])
-		d1 := fsAbs2(pa[ii] - pb[j])
-		for jj := 0; jj < b.r.n; jj++ {
-			if jj == j {
+		d1 := 4 * cost[ii][j]
+		for jj := 0; jj < nbr; jj++ {
+			if jj == j || usedB&(1<<jj) == 0 || d1 <= cost[ii][jj] {
 				continue
 			}
-			ii2 := int(inv[jj])
-			if (!a.r.isImg(ii) && !a.r.isImg(ii2)) || (!b.r.isImg(j) && !b.r.isImg(jj)) {
+			ii2 := inv[jj]
+			if (imgA&(1<<ii) == 0 && imgA&(1<<ii2) == 0) || (imgB&(1<<j) == 0 && imgB&(1<<jj) == 0) {
 				continue
 			}
-			if 4*d1 > fsAbs2(pa[ii]-pb[jj]) {
-				broken = true
-				break
-			}
+			broken = true
+			break
 		}
 	}
+matched:
 	var die, born [2]int
 	nd, nb := 0, 0
-	h3 := h * h * h
-	for k := 0; k < a.r.n; k++ {
+	h2 := h * h
+	h3 := h2 * h
+	ch := complex(h, 0)
+	for k := 0; k < na; k++ {
 		if usedA&(1<<k) == 0 {
 			continue
 		}
 		j := int(perm[k])
-		ta, tb := a.r.isImg(k), b.r.isImg(j)
+		a.perm[k] = int8(j)
+		ta, tb := imgA&(1<<k) != 0, imgB&(1<<j) != 0
 		switch {
 		case ta && tb:
-			sa, sb := a.r.det[k] > 0, b.r.det[j] > 0
-			if sa != sb {
+			za, zb := a.r.z[k], b.r.z[j]
+			sa := posA&(1<<k) != 0
+			if sa != (posB&(1<<j) != 0) {
+				// Parity flipped along a track: round-off at a critical
+				// curve. Keep the chord with the parity at a.
 				broken = true
+				seg := 0.5 * fsCross(za, zb)
+				if !sa {
+					seg = -seg
+				}
+				a.area += seg
 				continue
 			}
-			za, zb := a.r.z[k], b.r.z[j]
+			a.track |= 1 << k
+			ua, ub := a.dz[k], b.dz[j]
+			// Trapezoid plus the parabolic correction of Bozza (2010), then
+			// the next order, derived here by expanding the exact segment
+			// area about the midpoint (c_n the n-th θ-derivative of z there):
+			// exact − Bozza = −(h⁵/240)[2 Im(c̄₁c₄) + 3 Im(c̄₂c₃)] + O(h⁷),
+			// with c₁, c₂ the end means of ż, z̈, c₃ = (z̈_b − z̈_a)/h and
+			// c₄ = −12(ż_b − ż_a − h c₂)/h³ from the end derivatives.
 			ap := h3 / 24 * (a.pc[k] + b.pc[j])
-			seg := 0.5*fsCross(za, zb) + ap
-			// Error terms after Bozza (2010): end-point curvature disagreement,
-			// chord against tangents, and the next order of the correction.
-			e1 := math.Abs(a.pc[k]-b.pc[j]) * h3 / 48
-			dd := fsAbs2(zb - za)
-			ta := fsAbs(a.dz[k]) * fsAbs(b.dz[j]) * h * h
-			e2 := 0.0
-			if ta > 0 {
-				e2 = 1.5 * math.Abs(ap) * math.Abs(dd/ta-1)
-			} else {
-				e2 = math.Abs(ap)
+			c1 := (ua + ub) * 0.5
+			c2 := (a.d2z[k] + b.d2z[j]) * 0.5
+			c3h := b.d2z[j] - a.d2z[k]
+			c4h3 := -12 * (ub - ua - ch*c2)
+			e5 := -(h2 / 240) * (2*fsCross(c1, c4h3) + 3*h2*fsCross(c2, c3h))
+			seg := 0.5*fsCross(za, zb) + ap + e5
+			// Error: after the h⁵ term the next is estimated as the h⁵ term
+			// times its ratio to the h³ term (a geometric series), both taken
+			// without cancellation between their parts, so that an unlucky
+			// cancellation cannot hide an unresolved track; where the series
+			// does not converge (ratio ≥ 1) the h⁵ term itself is charged.
+			e5abs := (h2 / 240) * (2*math.Sqrt(fsAbs2(c1)*fsAbs2(c4h3)) + 3*h2*math.Sqrt(fsAbs2(c2)*fsAbs2(c3h)))
+			ab := h3 / 24 * (math.Abs(a.pc[k]) + math.Abs(b.pc[j]))
+			e := e5abs
+			if e5abs < ab {
+				e *= e5abs / ab
 			}
-			e3 := math.Abs(ap) * h * h / 10
+			if e >= 0 && e < inf {
+				a.err += e
+			} else {
+				broken = true
+			}
 			// An image that moved far more than its derivatives allow was
 			// not followed (it swept round a lens or jumped between
 			// tracks): the interval is unresolved.
-			if l2 := h * math.Max(fsAbs(a.dz[k]), fsAbs(b.dz[j])); dd > 9*l2*l2+1e-30 {
+			if dd := fsAbs2(zb - za); dd > 9*h2*math.Max(fsAbs2(ua), fsAbs2(ub))+1e-30 {
 				broken = true
 			}
 			if !sa {
 				seg = -seg
 			}
 			a.area += seg
-			a.err += e1 + e2 + e3
-		case ta && !tb:
-			if nd == 2 {
-				broken = true
-				continue
+		case ta:
+			if nd < 2 {
+				die[nd] = k
 			}
-			die[nd] = k
 			nd++
-		case !ta && tb:
-			if nb == 2 {
-				broken = true
-				continue
+		case tb:
+			if nb < 2 {
+				born[nb] = j
 			}
-			born[nb] = j
 			nb++
 		}
 	}
-	if nd == 1 && nb == 1 {
-		// An image and a spurious root exchanged their labels (they are close
-		// near a critical curve): take it as one continuing track.
-		k, j := die[0], born[0]
-		seg := 0.5 * fsCross(a.r.z[k], b.r.z[j])
-		if a.r.det[k] < 0 {
-			seg = -seg
+	// Creation and destruction come in pairs of opposite parity. Anything
+	// else (an image and a spurious root exchanging labels next to a critical
+	// curve, or a pair of each) is kept as continuing tracks, the image end
+	// giving the parity, and the interval is bisected.
+	if nd == 2 && nb == 0 && (posA>>die[0])&1 == (posA>>die[1])&1 ||
+		nb == 2 && nd == 0 && (posB>>born[0])&1 == (posB>>born[1])&1 ||
+		(nd > 0 && nb > 0) || nd == 1 || nb == 1 || nd > 2 || nb > 2 {
+		broken = true
+		for k := 0; k < na; k++ {
+			j := a.perm[k]
+			if j < 0 || (imgA>>k)&1 == (imgB>>j)&1 {
+				continue
+			}
+			seg := 0.5 * fsCross(a.r.z[k], b.r.z[j])
+			pos := posB&(1<<j) != 0
+			if imgA&(1<<k) != 0 {
+				pos = posA&(1<<k) != 0
+			}
+			if !pos {
+				seg = -seg
+			}
+			a.area += seg
 		}
-		a.area += seg
-		broken = true
-		nd, nb = 0, 0
-	}
-	if nd == 1 || nb == 1 || (nd == 2 && nb == 2) {
-		broken = true
 		nd, nb = 0, 0
 	}
 	if nd == 2 {
@@ -356,7 +624,7 @@ func (c *contour) interval(i int32, bad float64) {
 		}
 		ar, e := ctJoin(a.r.z[p], a.dz[p], a.r.z[q], a.dz[q], a.r.det[p]-a.r.det[q])
 		a.area += ar
-		a.err += e
+		a.err += e + ctStale(a.r.z[p]-a.r.z[q], a.dz[p], a.dz[q], -h)
 	}
 	if nb == 2 {
 		// Creation inside (a, b): the − image comes from the critical curve
@@ -367,11 +635,70 @@ func (c *contour) interval(i int32, bad float64) {
 		}
 		ar, e := ctJoin(b.r.z[q], b.dz[q], b.r.z[p], b.dz[p], b.r.det[p]-b.r.det[q])
 		a.area += ar
-		a.err += e
+		a.err += e + ctStale(b.r.z[p]-b.r.z[q], b.dz[p], b.dz[q], h)
 	}
+	a.clean = !broken
 	if broken {
-		a.err += bad * h
+		a.err += bad*h + c.local(a, b)
 	}
+}
+
+// local bounds what a wrong matching or a dropped track can cost in the
+// interval from a to b: for each matched root pair involving an image, its
+// move times (its move plus its distance to the nearest other root), the area
+// of the small polygon by which a different routing of the tracks would
+// differ. Broken intervals keep best-guess terms (see interval), so that the
+// image boundaries stay closed and this local bound holds.
+func (c *contour) local(a, b *ctSample) float64 {
+	sum := 0.0
+	for k := 0; k < a.r.n; k++ {
+		j := a.perm[k]
+		if j < 0 || (!a.r.isImg(k) && !b.r.isImg(int(j))) {
+			continue
+		}
+		za := a.r.z[k]
+		near := math.Inf(1)
+		for i := 0; i < a.r.n; i++ {
+			if i != k {
+				near = math.Min(near, fsAbs2(a.r.z[i]-za))
+			}
+		}
+		dz := fsAbs(b.r.z[j] - za)
+		sum += dz * (dz + math.Sqrt(near))
+	}
+	return sum
+}
+
+// ctFresh checks that a pair of images a fold created (h > 0) or is about to
+// destroy (h < 0) within |h| of θ is young: at a fold the separation grows like
+// L ∝ √|θ − θc|, so dL/dθ = L/(2(θ − θc)) has the sign of h and puts θc
+// within the interval (allowing a factor 2 for the departure from the square
+// root). A pair that instead converges came from a creation long before and is
+// about to be destroyed again (the boundary clipped a caustic between the
+// samples): joining it through the critical curve would leave out its whole
+// track.
+func ctFresh(d, dd complex128, h float64) bool {
+	l2 := fsAbs2(d)
+	rate := real(dd)*real(d) + imag(dd)*imag(d) // L·dL/dθ
+	if h < 0 {
+		rate, h = -rate, -h
+	}
+	// θ − θc = L²/(2 L dL/dθ) ≤ 2h
+	return rate > 0 && l2 <= 4*h*rate
+}
+
+// ctStale is the error charged to a join whose pair (separation d, θ-velocities
+// up and uq) is not young by ctFresh: the pair may have swept a loop since it
+// was created, of an area up to the square of the way it can have travelled in
+// the interval plus its separation. Bisection then brings its creation point
+// next to a sample. A young pair is charged nothing here (ctJoin charges the
+// parabola).
+func ctStale(d, up, uq complex128, h float64) float64 {
+	if ctFresh(d, up-uq, h) {
+		return 0
+	}
+	l := math.Abs(h)*(fsAbs(up)+fsAbs(uq)) + fsAbs(d)
+	return l * l
 }
 
 // ctJoin is the oriented-area term ½∫Im(z̄ dz) of the image boundary from A

@@ -50,6 +50,101 @@ type causticMap struct {
 	tracks [4]causticTrack
 }
 
+// closing returns the segment that closes track k across φ = 2π: its last
+// point and the nearest first point of any track (the quartic's roots come
+// back permuted there).
+func (c *causticMap) closing(k int) (a, b complex128) {
+	a = c.tracks[k].pts[causticSamples-1]
+	best := math.Inf(1)
+	for j := range c.tracks {
+		if d := fsAbs2(c.tracks[j].pts[0] - a); d < best {
+			best, b = d, c.tracks[j].pts[0]
+		}
+	}
+	return a, b
+}
+
+// crossings appends to dst the angles θ ∈ [th0, th0 + 2π) at which the circle
+// zc + r·e^{iθ} crosses the sampled caustic (the polyline through the
+// samples), in increasing order. The contour integration seeds its samples
+// with them so that no interval of θ holds two crossings: two crossings
+// between neighbouring samples leave the image count the same at both ends,
+// and the pair of images created and destroyed in between would be missed
+// whatever the error estimate says. Crossings closer to tangency than the
+// polyline's sagitta (its distance from the true curve) can be missed or
+// invented; the area such a graze adds is of the order of the sagitta times
+// the local magnification.
+func (c *causticMap) crossings(dst []float64, zc complex128, r, th0 float64) []float64 {
+	n0 := len(dst)
+	x, y := real(zc), imag(zc)
+	seg := func(p, q complex128) {
+		d := q - p
+		f := p - zc
+		a := fsAbs2(d)
+		if a == 0 {
+			return
+		}
+		b := real(f)*real(d) + imag(f)*imag(d) // half the linear coefficient
+		cc := fsAbs2(f) - r*r
+		disc := b*b - a*cc
+		if disc < 0 {
+			return
+		}
+		sq := math.Sqrt(disc)
+		for _, t := range [2]float64{(-b - sq) / a, (-b + sq) / a} {
+			if t < 0 || t >= 1 {
+				continue
+			}
+			w := f + d*complex(t, 0)
+			th := math.Atan2(imag(w), real(w))
+			for th < th0 {
+				th += 2 * math.Pi
+			}
+			for th >= th0+2*math.Pi {
+				th -= 2 * math.Pi
+			}
+			dst = append(dst, th)
+		}
+	}
+	for k := range c.tracks {
+		t := &c.tracks[k]
+		if !boxMeetsCircle(&t.box, x, y, r) {
+			continue
+		}
+		for j := range t.chunks {
+			if !boxMeetsCircle(&t.chunks[j], x, y, r) {
+				continue
+			}
+			for i := j * chunkLen; i < (j+1)*chunkLen && i < causticSamples-1; i++ {
+				seg(t.pts[i], t.pts[i+1])
+			}
+		}
+	}
+	for k := range c.tracks {
+		p, q := c.closing(k)
+		seg(p, q)
+	}
+	out := dst[n0:]
+	for i := 1; i < len(out); i++ {
+		for j := i; j > 0 && out[j] < out[j-1]; j-- {
+			out[j], out[j-1] = out[j-1], out[j]
+		}
+	}
+	return dst
+}
+
+// boxMeetsCircle reports whether the circle of radius r about (x, y) can pass
+// through the box of ch: the box reaches within r of the centre and not all of
+// it lies inside the circle.
+func boxMeetsCircle(ch *causticChunk, x, y, r float64) bool {
+	if boxFar(ch, x, y, r) {
+		return false
+	}
+	dx := math.Max(math.Abs(ch.x0-x), math.Abs(ch.x1-x))
+	dy := math.Max(math.Abs(ch.y0-y), math.Abs(ch.y1-y))
+	return dx*dx+dy*dy >= r*r
+}
+
 type causticTrack struct {
 	box    causticChunk // bounding box and largest sagitta of the whole track
 	pts    [causticSamples]complex128
@@ -87,17 +182,12 @@ func (l *fsLens) criticalQuartic(e complex128, start *[5]complex128, cold bool) 
 	for a := 0; a < 3; a++ {
 		c[a] -= complex(l.m1, 0)*p2[a] + complex(l.m2, 0)*p1[a]
 	}
-	var mon [6]complex128
-	for k := 0; k < 4; k++ {
-		mon[k] = c[k] / c[4]
-	}
-	mon[4] = 1
 	if cold {
 		for k := 0; k < 4; k++ {
 			start[k] = cmplx.Rect(1.5+float64(k)*0.1, 0.4+1.3*float64(k)) + complex(l.z2, 0)
 		}
 	}
-	fsAberth(&mon, 4, start, 500)
+	aberth(&c, 4, start, 500)
 }
 
 func (c *causticMap) build(b Binary) {

@@ -11,15 +11,34 @@ import (
 // tracked along the boundary of a source, and analytic derivatives of the image
 // magnification with respect to the source position.
 
-// fsLens is the binary in the form the finite-source code works with.
+// fsLens is a binary lens in some coordinate frame: the positions z1, z2 of
+// the primary and the secondary on the real axis and their mass fractions.
+// newFSLens gives the centre-of-mass frame of the package doc; shifted moves
+// it along the real axis (the lens equation is unchanged by such a shift).
+// The lens polynomial is built and solved in the frame whose origin is o, the
+// lighter lens (see poly). Solver and the finite-source code share this type:
+// one polynomial, one Aberth iteration (aberth), one set of cold starts.
 type fsLens struct {
 	z1, z2, m1, m2 float64
+	o              float64 // origin of the polynomial's working frame in these coordinates
+	b              Binary
 }
 
 func newFSLens(b Binary) fsLens {
-	m1 := 1 / (1 + b.Q)
-	m2 := b.Q / (1 + b.Q)
-	return fsLens{z1: -m2 * b.S, z2: m1 * b.S, m1: m1, m2: m2}
+	z1, z2, m1, m2 := b.Lenses()
+	o := z2
+	if b.Q > 1 {
+		o = z1
+	}
+	return fsLens{z1: z1, z2: z2, m1: m1, m2: m2, o: o, b: b}
+}
+
+// shifted returns l in the coordinates z − d.
+func (l fsLens) shifted(d float64) fsLens {
+	l.z1 -= d
+	l.z2 -= d
+	l.o -= d
+	return l
 }
 
 // fsRoots are the roots of the lens polynomial at one source position.
@@ -42,7 +61,10 @@ func (r *fsRoots) isImg(k int) bool { return r.img&(1<<k) != 0 }
 // are z − o. With o at the lighter lens the images next to it, which decide the
 // planetary anomalies, are small numbers whose digits the polynomial keeps; in
 // the centre-of-mass frame a q = 1e-5 planet's images lose half their digits.
-func (l *fsLens) poly(c *[6]complex128, zeta complex128, o float64) {
+//
+// It returns the degree: 5, or 4 when the source sits on a lens (to round-off)
+// and the leading coefficient vanishes.
+func (l *fsLens) poly(c *[6]complex128, zeta complex128, o float64) int {
 	z1, z2, m1, m2 := l.z1-o, l.z2-o, l.m1, l.m2
 	zeta -= complex(o, 0)
 	zb := complex(real(zeta), -imag(zeta))
@@ -66,6 +88,10 @@ func (l *fsLens) poly(c *[6]complex128, zeta complex128, o float64) {
 	c[2] = q1 - zeta*q2 - (r0 + d1*r1 + d0*r2)
 	c[1] = q0 - zeta*q1 - (d1*r0 + d0*r1)
 	c[0] = -zeta*q0 - d0*r0
+	if fsAbs(c[5]) <= 1e-15*(fsAbs(c[4])+fsAbs(c[3])) {
+		return 4
+	}
+	return 5
 }
 
 // fsAbs is |z| without Hypot's overflow care (values here are far from the
@@ -84,55 +110,6 @@ func fsConj(z complex128) complex128 { return complex(real(z), -imag(z)) }
 // fsCross is Im(conj(a)·b), the z-component of the cross product a × b.
 func fsCross(a, b complex128) float64 { return real(a)*imag(b) - imag(a)*real(b) }
 
-// fsAberth refines the n roots in z of the monic polynomial a (a[n] = 1) by the
-// simultaneous Aberth–Ehrlich iteration (Aberth 1973, Math. Comp. 27, 339),
-// Gauss–Seidel style. Started from the roots of a nearby source position it
-// converges in two or three sweeps. It reports whether every correction fell
-// below 1e-14 of its root within maxIt sweeps (conv), and whether the roots are
-// finite (fin).
-func fsAberth(a *[6]complex128, n int, z *[5]complex128, maxIt int) (conv, fin bool) {
-	var done [5]bool
-	for it := 0; it < maxIt; it++ {
-		all := true
-		for k := 0; k < n; k++ {
-			if done[k] {
-				continue
-			}
-			x := z[k]
-			p, dp := a[n], complex(0, 0)
-			for j := n - 1; j >= 0; j-- {
-				dp = dp*x + p
-				p = p*x + a[j]
-			}
-			if p == 0 {
-				done[k] = true
-				continue
-			}
-			ratio := p * fsInv(dp)
-			var sum complex128
-			for j := 0; j < n; j++ {
-				if j != k {
-					sum += fsInv(x - z[j])
-				}
-			}
-			w := ratio * fsInv(1-ratio*sum)
-			if math.IsNaN(real(w)) || math.IsNaN(imag(w)) || math.IsInf(real(w), 0) || math.IsInf(imag(w), 0) {
-				return false, false
-			}
-			z[k] = x - w
-			if fsAbs2(w) <= 1e-28*fsAbs2(x)+1e-300 {
-				done[k] = true
-			} else {
-				all = false
-			}
-		}
-		if all {
-			return true, true
-		}
-	}
-	return false, true
-}
-
 // lensEq returns the lens-equation residual ζ(z) − zeta, ē = ∂ζ/∂z̄ conjugated
 // (that is g(z) = Σ mi/(z − zi)²) and the round-off scale of the residual.
 func (l *fsLens) lensEq(z, zeta complex128) (f, g complex128, scale float64) {
@@ -140,31 +117,20 @@ func (l *fsLens) lensEq(z, zeta complex128) (f, g complex128, scale float64) {
 	d := complex(l.m1, 0)*h1 + complex(l.m2, 0)*h2
 	g = complex(l.m1, 0)*h1*h1 + complex(l.m2, 0)*h2*h2
 	f = z - fsConj(d) - zeta
-	scale = fsAbs(z) + fsAbs(zeta) + l.m1*fsAbs(h1) + l.m2*fsAbs(h2)
+	// L1 norms (within √2 of |·|): no square roots on this hot path.
+	scale = abs1(z) + abs1(zeta) + l.m1*abs1(h1) + l.m2*abs1(h2)
 	return f, g, scale
 }
 
-// solve finds the roots at zeta, starting from warm (nil: cold start), and
-// classifies them. It reports false if the iteration failed even from a cold start.
+// solve finds the five roots at zeta (in l's coordinates), starting from warm
+// (nil: cold start), and classifies them. The roots are kept in the order of
+// warm, so that they can be followed from one source position to the next.
+// It reports false if the iteration failed even from the cold starts.
 func (l *fsLens) solve(out *fsRoots, zeta complex128, warm *[5]complex128) bool {
 	var c [6]complex128
-	o := l.z2 // origin of the polynomial's frame, see poly
-	l.poly(&c, zeta, o)
-	n := 5
-	if fsAbs(c[5]) <= 1e-15*(fsAbs(c[4])+fsAbs(c[3])) {
-		n = 4 // the source sits on a lens: one root went to infinity
-	}
-	var a [6]complex128
-	inv := fsInv(c[n])
-	for k := 0; k < n; k++ {
-		a[k] = c[k] * inv
-	}
-	a[n] = 1
+	n := l.poly(&c, zeta, l.o)
 	out.n = n
-	// A warm start that has not converged in 40 sweeps (possible only near a
-	// double root, where Aberth's convergence is linear) is kept if finite:
-	// the lens-equation polish in classify finishes the job.
-	co := complex(o, 0)
+	co := complex(l.o, 0)
 	done := func() bool {
 		for k := 0; k < n; k++ {
 			out.z[k] += co
@@ -176,28 +142,259 @@ func (l *fsLens) solve(out *fsRoots, zeta complex128, warm *[5]complex128) bool 
 		for k := 0; k < 5; k++ {
 			out.z[k] = warm[k] - co
 		}
-		if conv, fin := fsAberth(&a, n, &out.z, 40); conv || fin {
+		// A start that has not converged (possible only near a double root,
+		// where Aberth's convergence is linear) is kept if finite: the
+		// lens-equation polish in classify finishes the job.
+		if _, ok := aberth(&c, n, &out.z, 60); ok {
 			return done()
 		}
 	}
-	for attempt := 0; attempt < 3; attempt++ {
-		l.coldStart(&out.z, zeta-co, n, attempt)
-		if _, fin := fsAberth(&a, n, &out.z, 300); fin {
+	lw := l.shifted(l.o)
+	for kind := 0; kind < 3; kind++ {
+		lw.coldStart(&out.z, &c, n, kind, zeta-co)
+		if _, ok := aberth(&c, n, &out.z, 400); ok {
 			return done()
 		}
 	}
 	return false
 }
 
-// coldStart places n initial roots on a circle about the lens system, rotated
-// per attempt so that a failed start is not repeated.
-func (l *fsLens) coldStart(z *[5]complex128, zeta complex128, n, attempt int) {
-	r := 1.5 + fsAbs(zeta) + math.Abs(l.z2-l.z1)
-	off := 0.3 + 0.9*float64(attempt)
-	for k := 0; k < n; k++ {
-		s, c := math.Sincos(2*math.Pi*float64(k)/float64(n) + off)
-		z[k] = complex(r*c, r*s) + zeta/2
+// coldStart places the initial roots of the degree-n polynomial c for source
+// zeta, all in l's coordinates. Kind 0 uses the physical picture of a binary
+// lens: the major image near the source displaced by both deflections, one
+// minor image next to each lens (first-order solutions of the lens equation
+// there), and two guesses off the axis on the Einstein ring, where the extra
+// pair of a five-image source lies. Kinds 1 and 2 use the classical Aberth
+// ring around the root centroid, with a radius from a Fujiwara-type bound
+// (full and halved). Guesses need only be distinct; a bad set costs sweeps,
+// not correctness.
+func (l *fsLens) coldStart(roots *[5]complex128, c *[6]complex128, n, kind int, zeta complex128) {
+	if kind == 0 && n == 5 {
+		a, b := complex(l.z1, 0), complex(l.z2, 0)
+		m1, m2 := complex(l.m1, 0), complex(l.m2, 0)
+		cm := complex(l.m1*l.z1+l.m2*l.z2, 0) // centre of mass
+		roots[0] = zeta + cdiv(m1, fsConj(zeta-a)) + cdiv(m2, fsConj(zeta-b))
+		roots[1] = a + cdiv(m1, fsConj(a-zeta-cdiv(m2, a-b)))
+		roots[2] = b + cdiv(m2, fsConj(b-zeta-cdiv(m1, b-a)))
+		roots[3] = cm + complex(0.13, 0.97)
+		roots[4] = cm + complex(-0.11, -1.03)
+		ok := true
+		for k := 0; k < n && ok; k++ {
+			ok = finite(real(roots[k])) && finite(imag(roots[k]))
+			for j := 0; j < k && ok; j++ {
+				ok = roots[k] != roots[j]
+			}
+		}
+		if ok {
+			return
+		}
+		kind = 1
 	}
+	lead := c[n]
+	cen := -c[n-1] / (complex(float64(n), 0) * lead)
+	r := 0.0
+	for k := 1; k <= n; k++ {
+		v := math.Pow(cabs(c[n-k]/lead), 1/float64(k))
+		if v > r {
+			r = v
+		}
+	}
+	if !(r > 0) || math.IsInf(r, 0) {
+		r = 1
+	}
+	if kind == 2 {
+		r *= 0.5
+	}
+	off := 0.4 + 0.7*float64(kind)
+	for k := 0; k < n; k++ {
+		sn, cs := math.Sincos(2*math.Pi*float64(k)/float64(n) + off)
+		roots[k] = cen + complex(r*cs, r*sn)
+	}
+}
+
+// track finds the roots at zeta from predictions pred (l's coordinates) for a
+// source point next to one whose images are known: the roots flagged in imgs
+// are images continuing along their tracks and are refined by Newton's method
+// on the lens equation alone; the two others, if any, are the remaining roots
+// of the lens polynomial after the images are divided out (a quadratic). This
+// is several times cheaper than the Aberth iteration over all five roots. It
+// reports false (leaving out undefined) when anything is unexpected: an image
+// that does not converge quickly or lands on another, a degree drop, or a
+// remaining root that is an image too; the caller then uses solve.
+func (l *fsLens) track(out *fsRoots, zeta complex128, pred *[5]complex128, imgs uint8) bool {
+	nimg := 0
+	for k := 0; k < 5; k++ {
+		if imgs&(1<<k) != 0 {
+			nimg++
+		}
+	}
+	if nimg != 3 && nimg != 5 {
+		return false
+	}
+	out.n = 5
+	for k := 0; k < 5; k++ {
+		if imgs&(1<<k) == 0 {
+			continue
+		}
+		// Newton's method on the lens equation, δz = (−f + ḡ f̄)/det J. The
+		// error after a step is about |δz|²|g′|/|det J| (g′ = dg/dz, the
+		// curvature of the lens map), which decides when to stop; det J and
+		// the boundary derivatives are recomputed at the final position by
+		// the caller.
+		z := pred[k]
+		for it := 0; ; it++ {
+			h1, h2 := fsInv(z-complex(l.z1, 0)), fsInv(z-complex(l.z2, 0))
+			m1h1, m2h2 := complex(l.m1, 0)*h1, complex(l.m2, 0)*h2
+			f := z - fsConj(m1h1+m2h2) - zeta
+			g := m1h1*h1 + m2h2*h2
+			g1 := m1h1*h1*h1 + m2h2*h2*h2 // −g′/2
+			det := 1 - fsAbs2(g)
+			if it == 5 || !(det != 0) {
+				return false
+			}
+			step := (-f + fsConj(g)*fsConj(f)) * complex(1/det, 0)
+			z += step
+			sc := abs1(z) + abs1(zeta) + l.m1*abs1(h1) + l.m2*abs1(h2)
+			if next := fsAbs2(step) * 2 * abs1(g1) / math.Abs(det); next <= 1e-16*sc {
+				out.res[k] = next / sc
+				break
+			}
+		}
+		out.z[k] = z
+	}
+	// Each image must have stayed with its own prediction: nearer to it than
+	// half the distance to any other prediction.
+	for k := 0; k < 5; k++ {
+		if imgs&(1<<k) == 0 {
+			continue
+		}
+		d := fsAbs2(out.z[k] - pred[k])
+		for j := 0; j < 5; j++ {
+			if j != k && 4*d >= fsAbs2(pred[j]-pred[k]) {
+				return false
+			}
+		}
+	}
+	out.img = imgs
+	if nimg == 5 {
+		return true
+	}
+	var c [6]complex128
+	if l.poly(&c, zeta, l.o) != 5 {
+		return false
+	}
+	co := complex(l.o, 0)
+	// Divide out the three images (synthetic division, highest first).
+	q := c
+	deg := 5
+	for k := 0; k < 5; k++ {
+		if imgs&(1<<k) == 0 {
+			continue
+		}
+		r := out.z[k] - co
+		var b [6]complex128
+		b[deg-1] = q[deg]
+		for i := deg - 1; i >= 1; i-- {
+			b[i-1] = q[i] + r*b[i]
+		}
+		q = b
+		deg--
+	}
+	// q[0..2] is the quadratic; the stable pair of roots.
+	disc := q[1]*q[1] - 4*q[2]*q[0]
+	sq := csqrt(disc)
+	w := q[1] + sq
+	if fsAbs2(q[1]-sq) > fsAbs2(w) {
+		w = q[1] - sq
+	}
+	w *= -0.5
+	if w == 0 || q[2] == 0 {
+		return false
+	}
+	gh := [2]complex128{w / q[2], q[0] / w}
+	// Polish on the full polynomial (the division carries the images'
+	// round-off into the quadratic).
+	for i := range gh {
+		z := gh[i]
+		for it := 0; it < 2; it++ {
+			p, dp := c[5], complex(0, 0)
+			for j := 4; j >= 0; j-- {
+				dp = dp*z + p
+				p = p*z + c[j]
+			}
+			if dp == 0 {
+				break
+			}
+			z -= cdiv(p, dp)
+		}
+		gh[i] = z + co
+	}
+	// Assign the two to the free slots by their predictions.
+	var slot [2]int
+	ns := 0
+	for k := 0; k < 5 && ns < 2; k++ {
+		if imgs&(1<<k) == 0 {
+			slot[ns] = k
+			ns++
+		}
+	}
+	if fsAbs2(gh[0]-pred[slot[0]])+fsAbs2(gh[1]-pred[slot[1]]) > fsAbs2(gh[1]-pred[slot[0]])+fsAbs2(gh[0]-pred[slot[1]]) {
+		gh[0], gh[1] = gh[1], gh[0]
+	}
+	nnew := 0
+	for i, k := range slot {
+		z := gh[i]
+		f, g, sc := l.lensEq(z, zeta)
+		res := abs1(f) / sc
+		if res != res {
+			return false
+		}
+		if res <= 1e-9 {
+			// A root next to satisfying the lens equation: a pair of
+			// images was created. Polish it like classify would.
+			for it := 0; it < 8 && res > 1e-16; it++ {
+				det := 1 - fsAbs2(g)
+				if det == 0 {
+					break
+				}
+				zn := z + (-f+fsConj(g)*fsConj(f))*complex(1/det, 0)
+				fn, gn, scn := l.lensEq(zn, zeta)
+				rn := abs1(fn) / scn
+				if !(rn < res) {
+					break
+				}
+				z, f, g, res = zn, fn, gn, rn
+			}
+			if res > 1e-12 {
+				return false
+			}
+			nnew++
+		}
+		out.z[k], out.res[k], out.det[k] = z, res, 1-fsAbs2(g)
+	}
+	switch nnew {
+	case 0:
+	case 2:
+		if fsAbs2(out.z[slot[0]]-out.z[slot[1]]) == 0 {
+			return false
+		}
+		out.img |= 1<<slot[0] | 1<<slot[1]
+	default:
+		return false // one of the two only: let classify decide
+	}
+	return true
+}
+
+// csqrt is the principal square root.
+func csqrt(z complex128) complex128 {
+	x, y := real(z), imag(z)
+	r := math.Sqrt(x*x + y*y)
+	re := math.Sqrt(0.5 * (r + x))
+	im := math.Sqrt(0.5 * (r - x))
+	if y < 0 {
+		im = -im
+	}
+	return complex(re, im)
 }
 
 // classify polishes roots that nearly satisfy the lens equation by Newton's
@@ -214,11 +411,11 @@ func (l *fsLens) classify(r *fsRoots, zeta complex128) {
 		z := r.z[k]
 		raw[k] = z
 		f, g, sc := l.lensEq(z, zeta)
-		res := fsAbs(f) / sc
+		res := abs1(f) / sc
 		rawRes[k] = res
 		r.det[k] = 1 - fsAbs2(g)
 		r.res[k] = res
-		if res >= 1e-4 || res <= 1e-13 {
+		if res >= 1e-4 || res <= 1e-16 {
 			continue // spurious, or an image already at round-off level
 		}
 		// The polynomial loses digits for small q (references.md §3), so a
@@ -232,7 +429,7 @@ func (l *fsLens) classify(r *fsRoots, zeta complex128) {
 			e := fsConj(g)
 			zn := z + (-f+e*fsConj(f))*complex(1/det, 0)
 			fn, gn, scn := l.lensEq(zn, zeta)
-			if rn := fsAbs(fn) / scn; rn < res {
+			if rn := abs1(fn) / scn; rn < res {
 				z, f, g, res = zn, fn, gn, rn
 			} else {
 				break

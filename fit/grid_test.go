@@ -184,3 +184,31 @@ func TestGridChunksMergeWithCrossing(t *testing.T) {
 		t.Fatalf("merged chunks differ from one chunk:\n one    %+v\n merged %+v", one.Nodes, merged.Nodes)
 	}
 }
+
+// Cancelling a caustic-crossing grid keeps the nodes finished so far.
+func TestGridCancelWithCrossing(t *testing.T) {
+	s := problems.PlanetaryCaustic()
+	ev := simulate(t, s, 3)
+	p := s.Truth.Params
+	start := lens.Params{T0: p.T0 - 0.04, U0: 0.111, TE: 29.7}
+	ctx, cancel := context.WithCancel(context.Background())
+	calls := 0
+	g, err := fit.RunGrid(ctx, ev, start, fit.GridSettings{LogSMin: 0.1, LogSMax: 0.16, NS: 2, LogQMin: -3.2, LogQMax: -3, NQ: 2}, func(nd fit.GridNode) {
+		calls++
+		if calls == 2 {
+			cancel()
+		}
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	done := 0
+	for _, nd := range g.Nodes {
+		if nd.Done {
+			done++
+		}
+	}
+	if g.Status != fit.Cancelled || done != 2 || g.Crossing == nil {
+		t.Fatalf("status %v, %d nodes done, crossing %v: want cancelled after 2 nodes of a crossing grid", g.Status, done, g.Crossing != nil)
+	}
+}

@@ -8,7 +8,7 @@ import (
 // Jump is a step in the residuals of a smooth model: the signature of a caustic
 // crossing, where the magnification changes by a large factor within the time
 // the source disk takes to pass the caustic line (a fold entry or exit,
-// Schneider & Weiss 1986), while a smooth single-lens model changes little.
+// Schneider & Weiss 1986, A&A 164, 237), while a smooth single-lens model changes little.
 type Jump struct {
 	T     float64 `json:"t"`     // time of the step (full JD)
 	Sigma float64 `json:"sigma"` // size of the step in σ of its estimate; > 0 for a rise

@@ -182,7 +182,7 @@ func chordAt(path *causticPath, c complex128, base lens.Params, x []float64) (le
 // differences of step h[i], from x (updated in place), within maxEval calls of
 // res; res fills r and returns Σ r² (+Inf when x is not allowed). It returns
 // the best Σ r², the number of calls and whether ctx was cancelled. (The same
-// damped Gauss–Newton iteration as Optimize, Marquardt 1963, on coordinates
+// damped Gauss–Newton iteration as Optimize, Marquardt 1963, J. SIAM 11, 431, on coordinates
 // that are not model parameters.)
 func lmResiduals(ctx context.Context, res func(r, x []float64) float64, x, h []float64, nres, maxEval int, tol float64) (float64, int, bool) {
 	n := len(x)

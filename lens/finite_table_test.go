@@ -269,21 +269,6 @@ func (s *finiteRefStats) add(e, tol float64) {
 	s.worst = math.Max(s.worst, e)
 }
 
-// finiteLDKnown is a KNOWN FAILURE of FiniteMag on the limb-darkened rows,
-// kept as a ratchet so that CI stays green while it is fixed: at the
-// FiniteMag of commit f006b10, 1 of the 400 rows is beyond tol (99.75 %
-// within) and that one beyond 3·tol, at 5.6·tol (reference.csv line 2156: a
-// disk holding the primary near its limb, s = 1.2, q = 1e-3, ρ = 1e-3, over
-// the central caustic; the annuli estimate 1.7e-3 against a true 5.6e-3). The
-// table value there agrees with the uniform brute force integrated over
-// annuli to 2e-8. The check fails if the counts or the worst error grow,
-// and asks for this ratchet's removal once the rows pass.
-var finiteLDKnown = struct {
-	set       int // index in setNames
-	out, out3 int
-	worst     float64 // in units of tol
-}{1, 1, 1, 6}
-
 // TestFiniteReferenceTable is the accuracy check of issue 3 against the
 // brute-force table: FiniteMag at tolerance 1e-3 must be within tolerance at
 // ≥ 99.5 % of the points (of each set: uniform and limb-darkened, on or near
@@ -374,16 +359,8 @@ func TestFiniteReferenceTable(t *testing.T) {
 		if frac < 0.995 {
 			fails[i] = append(fails[i], fmt.Sprintf("%s: %.2f%% of points within tol, want ≥ 99.5%%", name, 100*frac))
 		}
-		known := i == finiteLDKnown.set && st.out <= finiteLDKnown.out && st.out3 <= finiteLDKnown.out3 && st.worst <= finiteLDKnown.worst*tol
 		for _, f := range fails[i] {
-			if known {
-				t.Log("KNOWN FAILURE (see finiteLDKnown): " + f)
-			} else {
-				t.Error(f)
-			}
-		}
-		if known && len(fails[i]) == 0 {
-			t.Errorf("the limb-darkened rows pass now: remove finiteLDKnown")
+			t.Error(f)
 		}
 	}
 	keys := make([]string, 0, len(byClass))

@@ -69,6 +69,7 @@ type ctSample struct {
 
 	area   float64 // parity-signed image area contributed by the interval
 	err    float64 // its estimated absolute error
+	jerr   float64 // the part of err from joins through critical curves
 	frozen bool    // too short to bisect further
 }
 
@@ -86,17 +87,20 @@ type contour struct {
 	cross []float64 // caustic crossings of the boundary
 	// Samples counts the boundary points solved by the last integration.
 	samples int
+	// maxSamples overrides ctMaxSamples when > 0 (references in tests).
+	maxSamples int
 }
 
 const (
 	ctInitial    = 8    // equally spaced initial samples on the boundary
 	ctMaxSamples = 4000 // cap on boundary samples per contour (the error estimate is returned either way)
 	// An interval is not bisected once its arc r·h on the source boundary is
-	// below ctMinArc·(1 + |zc|): next to a caustic crossing at θc the merging
-	// pair sits δ ≈ r|θ − θc| from the caustic with positions uncertain by
-	// ε/δ relative (ε the round-off of the source position), so closer
-	// samples are noise.
-	ctMinArc = 1e-13
+	// below ctMinArc·(|zc| + r), about 50 units of round-off of the source
+	// position in the working frame: next to a caustic crossing at θc the
+	// merging pair sits δ ≈ r|θ − θc| from the caustic with positions
+	// uncertain by ε/δ relative (ε that round-off), so closer samples are
+	// noise.
+	ctMinArc = 1e-14
 )
 
 // disk returns the parity-signed total image area of a uniform disk of radius r
@@ -104,12 +108,16 @@ const (
 // at most tol times the area. warm, if not nil, seeds the first root solve.
 // ok is false if a root solve failed.
 func (c *contour) disk(l0 *fsLens, zc complex128, r, tol float64, warm *[5]complex128) (area, errEst float64, ok bool) {
-	// Work in the frame of the polynomial (the lighter lens at the origin):
-	// the area terms ½Im(z̄a zb) of images next to a planet then keep the
-	// digits that the centre-of-mass frame spends on the planet's position.
+	// Work in the frame of the polynomial, the lighter lens at the origin
+	// (fsLens.o): the area terms ½Im(z̄a zb) of images next to a planet then
+	// keep the digits that the centre-of-mass frame spends on the planet's
+	// position. (The heavier lens's frame would resolve sources next to it
+	// better, but it loses the image next to the lighter lens, whose
+	// misclassification then pairs it with a far image through a join.)
 	// Areas do not depend on the frame.
 	o := l0.o
 	lw := l0.shifted(o)
+	lw.o = 0 // the polynomial in this frame too
 	l := &lw
 	zc -= complex(o, 0)
 	if warm != nil {
@@ -165,8 +173,15 @@ func (c *contour) disk(l0 *fsLens, zc complex128, r, tol float64, warm *[5]compl
 	// The totals are kept by differences while refining (summing afresh each
 	// round would be O(n²)) and recomputed exactly at the end.
 	area, errEst = c.totals()
-	minArc := ctMinArc * (1 + fsAbs(zc))
-	for errEst > tol*math.Abs(area) && len(c.heap) > 0 && len(c.s) < ctMaxSamples {
+	minArc := ctMinArc * (fsAbs(zc) + r)
+	// The test is against the area less its error: intervals that cannot be
+	// matched yet may carry terms far larger than the true total, which must
+	// not make the tolerance look met.
+	maxN := ctMaxSamples
+	if c.maxSamples > 0 {
+		maxN = c.maxSamples
+	}
+	for errEst > tol*(math.Abs(area)-errEst) && len(c.heap) > 0 && len(c.s) < maxN {
 		it := c.pop()
 		a := &c.s[it.i]
 		if it.ver != a.ver || a.frozen {
@@ -180,11 +195,12 @@ func (c *contour) disk(l0 *fsLens, zc complex128, r, tol float64, warm *[5]compl
 		h := thb - a.th
 		if r*h < minArc {
 			// Round-off: no further bisection. The Taylor-based estimates
-			// mean nothing at this scale; the local bound does.
+			// mean nothing at this scale; the local bound does (joins keep
+			// their own estimate).
 			a.frozen = true
-			if l := c.local(a, &c.s[b]); l < a.err {
-				errEst += l - a.err
+			if l := c.local(a, &c.s[b]) + a.jerr; l < a.err {
 				a.err = l
+				area, errEst = c.totals()
 			}
 			continue
 		}
@@ -215,6 +231,11 @@ func (c *contour) disk(l0 *fsLens, zc complex128, r, tol float64, warm *[5]compl
 		}
 		area += c.s[it.i].area + c.s[m].area - oldA
 		errEst += c.s[it.i].err + c.s[m].err - oldE
+		if oldE > 1e8*errEst || math.Abs(oldA) > 1e8*math.Abs(area) {
+			// A huge term left the sums (an unresolved interval next to a
+			// lens): the running differences have lost their digits.
+			area, errEst = c.totals()
+		}
 		c.push(it.i)
 		c.push(m)
 	}
@@ -414,7 +435,7 @@ func (c *contour) interval(i int32, bad float64, hint *[5]int8) {
 	if h <= 0 {
 		h += 2 * math.Pi
 	}
-	a.area, a.err = 0, 0
+	a.area, a.err, a.jerr = 0, 0, 0
 	a.perm = [5]int8{-1, -1, -1, -1, -1}
 	a.track = 0
 	na, nbr := a.r.n, b.r.n
@@ -623,8 +644,10 @@ matched:
 			p, q = q, p
 		}
 		ar, e := ctJoin(a.r.z[p], a.dz[p], a.r.z[q], a.dz[q], a.r.det[p]-a.r.det[q])
+		e += ctStale(a.r.z[p]-a.r.z[q], a.dz[p], a.dz[q], -h)
 		a.area += ar
-		a.err += e + ctStale(a.r.z[p]-a.r.z[q], a.dz[p], a.dz[q], -h)
+		a.err += e
+		a.jerr += e
 	}
 	if nb == 2 {
 		// Creation inside (a, b): the − image comes from the critical curve
@@ -634,14 +657,24 @@ matched:
 			p, q = q, p
 		}
 		ar, e := ctJoin(b.r.z[q], b.dz[q], b.r.z[p], b.dz[p], b.r.det[p]-b.r.det[q])
+		e += ctStale(b.r.z[p]-b.r.z[q], b.dz[p], b.dz[q], h)
 		a.area += ar
-		a.err += e + ctStale(b.r.z[p]-b.r.z[q], b.dz[p], b.dz[q], h)
+		a.err += e
+		a.jerr += e
 	}
 	a.clean = !broken
 	if broken {
 		a.err += bad*h + c.local(a, b)
 	}
+	if !(a.err < ctHugeErr) || a.area-a.area != 0 {
+		// Non-finite terms (roots at round-off from a lens or a critical
+		// curve): keep the running totals of disk finite.
+		a.area, a.err, a.jerr, a.clean = 0, ctHugeErr, 0, false
+	}
 }
+
+// ctHugeErr is the error charged to an interval whose terms are not finite.
+const ctHugeErr = 1e200
 
 // local bounds what a wrong matching or a dropped track can cost in the
 // interval from a to b: for each matched root pair involving an image, its

@@ -114,12 +114,39 @@ func fsCross(a, b complex128) float64 { return real(a)*imag(b) - imag(a)*real(b)
 // (that is g(z) = Σ mi/(z − zi)²) and the round-off scale of the residual.
 func (l *fsLens) lensEq(z, zeta complex128) (f, g complex128, scale float64) {
 	h1, h2 := fsInv(z-complex(l.z1, 0)), fsInv(z-complex(l.z2, 0))
-	d := complex(l.m1, 0)*h1 + complex(l.m2, 0)*h2
-	g = complex(l.m1, 0)*h1*h1 + complex(l.m2, 0)*h2*h2
-	f = z - fsConj(d) - zeta
-	// L1 norms (within √2 of |·|): no square roots on this hot path.
-	scale = abs1(z) + abs1(zeta) + l.m1*abs1(h1) + l.m2*abs1(h2)
+	m1h1, m2h2 := complex(l.m1, 0)*h1, complex(l.m2, 0)*h2
+	g = m1h1*h1 + m2h2*h2
+	f = z - fsConj(m1h1+m2h2) - zeta
+	a1, a2 := abs1(h1), abs1(h2)
+	az := abs1(z)
+	scale = az + abs1(zeta) + l.m1*a1 + l.m2*a2 + az*(l.m1*a1*a1+l.m2*a2*a2)
 	return f, g, scale
+}
+
+// lensRes is lensEq with the residual relative to its round-off scale: the
+// size of the terms plus the effect of rounding z itself, |z|·|∂ζ/∂z̄| ≤
+// |z|·Σ mi|hi|², which dominates next to a lens (as in resScale of the
+// Solver). A spurious root sitting on a lens (it exists when the source is
+// within round-off of that lens) has a residual as large as the diverging
+// term but a larger rounding scale; like the Solver, a residual above 1e-8 of
+// the terms alone is not taken for an image when the rounding part dominates
+// (the root sits on a lens). L1 norms (within √2 of |·|): no square roots on
+// this hot path.
+func (l *fsLens) lensRes(z, zeta complex128) (f, g complex128, res float64) {
+	h1, h2 := fsInv(z-complex(l.z1, 0)), fsInv(z-complex(l.z2, 0))
+	m1h1, m2h2 := complex(l.m1, 0)*h1, complex(l.m2, 0)*h2
+	g = m1h1*h1 + m2h2*h2
+	f = z - fsConj(m1h1+m2h2) - zeta
+	a1, a2 := abs1(h1), abs1(h2)
+	az := abs1(z)
+	terms := az + abs1(zeta) + l.m1*a1 + l.m2*a2
+	af := abs1(f)
+	round := az * (l.m1*a1*a1 + l.m2*a2*a2)
+	res = af / (terms + round)
+	if round > 1e6*terms && af > 1e-8*terms {
+		res = 1 // a root sitting on a lens
+	}
+	return f, g, res
 }
 
 // solve finds the five roots at zeta (in l's coordinates), starting from warm
@@ -254,8 +281,9 @@ func (l *fsLens) track(out *fsRoots, zeta complex128, pred *[5]complex128, imgs 
 			}
 			step := (-f + fsConj(g)*fsConj(f)) * complex(1/det, 0)
 			z += step
-			sc := abs1(z) + abs1(zeta) + l.m1*abs1(h1) + l.m2*abs1(h2)
-			if next := fsAbs2(step) * 2 * abs1(g1) / math.Abs(det); next <= 1e-16*sc {
+			a1, a2, az := abs1(h1), abs1(h2), abs1(z)
+			sc := az + abs1(zeta) + l.m1*a1 + l.m2*a2 + az*(l.m1*a1*a1+l.m2*a2*a2)
+			if next := fsAbs2(step) * 2 * abs1(g1) / math.Abs(det); next <= 1e-15*sc {
 				out.res[k] = next / sc
 				break
 			}
@@ -316,7 +344,7 @@ func (l *fsLens) track(out *fsRoots, zeta complex128, pred *[5]complex128, imgs 
 	// round-off into the quadratic).
 	for i := range gh {
 		z := gh[i]
-		for it := 0; it < 2; it++ {
+		for it := 0; it < 1; it++ {
 			p, dp := c[5], complex(0, 0)
 			for j := 4; j >= 0; j-- {
 				dp = dp*z + p
@@ -344,8 +372,7 @@ func (l *fsLens) track(out *fsRoots, zeta complex128, pred *[5]complex128, imgs 
 	nnew := 0
 	for i, k := range slot {
 		z := gh[i]
-		f, g, sc := l.lensEq(z, zeta)
-		res := abs1(f) / sc
+		f, g, res := l.lensRes(z, zeta)
 		if res != res {
 			return false
 		}
@@ -358,8 +385,7 @@ func (l *fsLens) track(out *fsRoots, zeta complex128, pred *[5]complex128, imgs 
 					break
 				}
 				zn := z + (-f+fsConj(g)*fsConj(f))*complex(1/det, 0)
-				fn, gn, scn := l.lensEq(zn, zeta)
-				rn := abs1(fn) / scn
+				fn, gn, rn := l.lensRes(zn, zeta)
 				if !(rn < res) {
 					break
 				}
@@ -410,8 +436,7 @@ func (l *fsLens) classify(r *fsRoots, zeta complex128) {
 	for k := 0; k < r.n; k++ {
 		z := r.z[k]
 		raw[k] = z
-		f, g, sc := l.lensEq(z, zeta)
-		res := abs1(f) / sc
+		f, g, res := l.lensRes(z, zeta)
 		rawRes[k] = res
 		r.det[k] = 1 - fsAbs2(g)
 		r.res[k] = res
@@ -428,8 +453,8 @@ func (l *fsLens) classify(r *fsRoots, zeta complex128) {
 			}
 			e := fsConj(g)
 			zn := z + (-f+e*fsConj(f))*complex(1/det, 0)
-			fn, gn, scn := l.lensEq(zn, zeta)
-			if rn := abs1(fn) / scn; rn < res {
+			fn, gn, rn := l.lensRes(zn, zeta)
+			if rn < res {
 				z, f, g, res = zn, fn, gn, rn
 			} else {
 				break
@@ -475,6 +500,44 @@ func (l *fsLens) classify(r *fsRoots, zeta complex128) {
 				r.img |= 1 << k
 			}
 		}
+		return
+	}
+	if cnt == 4 {
+		// One image too many (or a fifth that Newton's method could not
+		// finish next to a critical curve). Residuals at round-off cannot
+		// rank the four; the image-parity rule n− − n+ = 1 (Burke 1981, ApJ
+		// 244, L1) and the distance to the critical curve can: drop, among
+		// the images whose removal leaves a valid set of three, the one with
+		// the smallest |det J| — a member of a pair at the critical curve,
+		// taken as not yet created (or already destroyed).
+		npos := 0
+		for k := 0; k < r.n; k++ {
+			if r.res[k] <= trueRes {
+				r.img |= 1 << k
+				if r.det[k] > 0 {
+					npos++
+				}
+			}
+		}
+		drop := -1
+		for pass := 0; pass < 2 && drop < 0; pass++ {
+			for k := 0; k < r.n; k++ {
+				if !r.isImg(k) {
+					continue
+				}
+				p := npos
+				if r.det[k] > 0 {
+					p--
+				}
+				if pass == 0 && (3-p)-p != 1 {
+					continue // removing k would break the parity rule
+				}
+				if drop < 0 || math.Abs(r.det[k]) < math.Abs(r.det[drop]) {
+					drop = k
+				}
+			}
+		}
+		r.img &^= 1 << drop
 		return
 	}
 	// Rank by residual: 5 images when the 4th and 5th are still small.

@@ -89,12 +89,17 @@ const maxImageMag = 1e12
 // the value a source within round-off of a fold can reach, see foldCap) and
 // the parities the rule above requires; Stats.OnCaustic counts such
 // calls. Their magnification is then only an order of magnitude.
+//
+// The polynomial, the Aberth iteration and the cold starts are shared with the
+// finite-source code, which reads all five roots through allRoots.
 type Solver struct {
 	b      Binary
 	err    error   // validation error of b
 	o      float64 // origin of the working frame: the lighter lens (see setBinary)
 	z1, z2 float64 // lens positions in the working frame (z − o)
 	m1, m2 float64 // mass fractions
+	cm     fsLens  // the lens in the centre-of-mass frame, for the finite-source code
+	wk     fsLens  // the lens in the working frame (cold starts)
 
 	c     [6]complex128 // polynomial coefficients, c[k] multiplies z^k
 	deg   int           // 5, or 4 when the source sits exactly on a lens
@@ -154,6 +159,8 @@ func (s *Solver) setBinary(b Binary) {
 	s.hist = false // the lens moved: no straight-line history
 	s.o = o
 	s.z1, s.z2, s.m1, s.m2 = z1-o, z2-o, m1, m2
+	s.cm = fsLens{z1: z1, z2: z2, m1: m1, m2: m2, o: o, b: b}
+	s.wk = s.cm.shifted(o)
 	if s.err != nil {
 		s.warm = false
 	}
@@ -259,6 +266,38 @@ func (s *Solver) predict(zeta complex128) {
 	s.hist = false
 }
 
+// allRoots finds all five roots of the lens polynomial at zeta (centre-of-mass
+// frame), true images and spurious roots, with their classification
+// (fsLens.solve: the polynomial, Aberth iteration, cold starts and frame of
+// Images), for the finite-source code, which follows all five along a source
+// boundary. It warm-starts from this Solver's last roots and updates them, so
+// that Images and allRoots calls can alternate along a trajectory.
+func (s *Solver) allRoots(out *fsRoots, zeta complex128) error {
+	if s.err != nil {
+		return s.err
+	}
+	s.Stats.Calls++
+	o := complex(s.o, 0)
+	var warm *[5]complex128
+	var w [5]complex128
+	if s.warm {
+		for k := range w {
+			w[k] = s.roots[k] + o
+		}
+		warm = &w
+	}
+	s.hist = false // allRoots does not keep the straight-line history
+	if !s.cm.solve(out, zeta, warm) {
+		s.warm = false
+		return fmt.Errorf("%w (s = %v, q = %v, source %v)", ErrImages, s.b.S, s.b.Q, zeta)
+	}
+	for k := range s.roots {
+		s.roots[k] = out.z[k] - o
+	}
+	s.warm = out.n == 5
+	return nil
+}
+
 // Mag is the point-source magnification at zeta: Σ|Mag| over the true images.
 func (s *Solver) Mag(zeta complex128) (float64, error) {
 	imgs, err := s.Images(s.imgs[:0], zeta)
@@ -274,22 +313,15 @@ func (s *Solver) Mag(zeta complex128) (float64, error) {
 
 func finite(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }
 
-// geom is the lens in the working frame (the lighter lens at the origin).
-func (s *Solver) geom() fsLens {
-	return fsLens{z1: s.z1, z2: s.z2, m1: s.m1, m2: s.m2, b: s.b}
-}
-
 // coefficients fills s.c and s.deg with the lens polynomial of Witt (1990)
 // for source zeta (working frame), built by fsLens.poly.
 func (s *Solver) coefficients(zeta complex128) {
-	l := s.geom()
-	s.deg = l.poly(&s.c, zeta, 0)
+	s.deg = wittPoly(&s.c, s.z1, s.z2, s.m1, s.m2, zeta)
 }
 
 // coldStart places the initial roots (fsLens.coldStart).
 func (s *Solver) coldStart(kind int, zeta complex128) {
-	l := s.geom()
-	l.coldStart(&s.roots, &s.c, s.deg, kind, zeta)
+	s.wk.coldStart(&s.roots, &s.c, s.deg, kind, zeta)
 }
 
 // cabs is |z| without the overflow care of cmplx.Abs (arguments here are far

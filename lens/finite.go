@@ -109,21 +109,16 @@ func (s *Solver) FiniteMag(zeta complex128, rho, ld, tol float64) (Finite, error
 	}
 	w := finitePool.Get().(*finiteWork)
 	defer finitePool.Put(w)
-	return w.finiteMag(b, zeta, rho, ld, tol)
+	return w.finiteMag(s, zeta, rho, ld, tol)
 }
 
-func (w *finiteWork) finiteMag(b Binary, zeta complex128, rho, ld, tol float64) (Finite, error) {
-	l := newFSLens(b)
-	var warm *[5]complex128
-	if w.haveWarm && w.lens == b {
-		warm = &w.warm
-	}
+func (w *finiteWork) finiteMag(s *Solver, zeta complex128, rho, ld, tol float64) (Finite, error) {
+	b := s.b
+	l := s.cm
 	var r0 fsRoots
-	if !l.solve(&r0, zeta, warm) {
-		w.haveWarm = false
+	if err := s.allRoots(&r0, zeta); err != nil {
 		return Finite{}, fmt.Errorf("lens: root solve failed at source %v (s = %v, q = %v)", zeta, b.S, b.Q)
 	}
-	w.lens, w.warm, w.haveWarm = b, r0.z, true
 	a0 := r0.mag()
 	if rho == 0 {
 		return Finite{Mag: a0, Method: PointSource, Samples: 1}, nil

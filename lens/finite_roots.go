@@ -5,11 +5,16 @@ import (
 	"sync"
 )
 
-// This file holds the point-source machinery that the finite-source code needs
-// beyond Solver.Images: all five roots of the lens polynomial (true images and
-// the spurious "ghost" roots), kept in a stable order so that roots can be
-// tracked along the boundary of a source, and analytic derivatives of the image
-// magnification with respect to the source position.
+// This file holds the root finding shared by Solver and the finite-source
+// code: the lens polynomial (fsLens.poly), the Aberth iteration (aberth, in
+// binary.go) and its cold starts, and for the finite-source code all five
+// roots of the polynomial (true images and the spurious roots), kept in a
+// stable order so that they can be followed along the boundary of a source
+// (fsLens.solve, Solver.allRoots; fsLens.track for points between two known
+// ones), plus analytic derivatives of the image magnification with respect to
+// the source position. Solver.Images keeps its own, stricter selection of the
+// images (select_): it must reject an invalid set and retry, where the
+// contour must always have all five roots.
 
 // fsLens is a binary lens in some coordinate frame: the positions z1, z2 of
 // the primary and the secondary on the real axis and their mass fractions.
@@ -65,8 +70,12 @@ func (r *fsRoots) isImg(k int) bool { return r.img&(1<<k) != 0 }
 // It returns the degree: 5, or 4 when the source sits on a lens (to round-off)
 // and the leading coefficient vanishes.
 func (l *fsLens) poly(c *[6]complex128, zeta complex128, o float64) int {
-	z1, z2, m1, m2 := l.z1-o, l.z2-o, l.m1, l.m2
-	zeta -= complex(o, 0)
+	return wittPoly(c, l.z1-o, l.z2-o, l.m1, l.m2, zeta-complex(o, 0))
+}
+
+// wittPoly is fsLens.poly for lenses at z1, z2 (real) with masses m1, m2 and
+// source zeta, all in the polynomial's frame.
+func wittPoly(c *[6]complex128, z1, z2, m1, m2 float64, zeta complex128) int {
 	zb := complex(real(zeta), -imag(zeta))
 	d1, d0 := complex(-(z1+z2), 0), complex(z1*z2, 0)
 	n0 := complex(-(m1*z2 + m2*z1), 0)
@@ -88,7 +97,7 @@ func (l *fsLens) poly(c *[6]complex128, zeta complex128, o float64) int {
 	c[2] = q1 - zeta*q2 - (r0 + d1*r1 + d0*r2)
 	c[1] = q0 - zeta*q1 - (d1*r0 + d0*r1)
 	c[0] = -zeta*q0 - d0*r0
-	if fsAbs(c[5]) <= 1e-15*(fsAbs(c[4])+fsAbs(c[3])) {
+	if abs1(c[5]) <= 1e-15*(abs1(c[4])+abs1(c[3])) {
 		return 4
 	}
 	return 5
@@ -596,16 +605,12 @@ func (l *fsLens) imgDeriv(z complex128) (mu, lap, grad float64) {
 	return mu, lap, grad
 }
 
-// finiteWork is the scratch state of the finite-source code: buffers for the
-// contour samples and the warm start of the central roots. It is taken from a
-// pool per call, so FiniteMag needs no extra field in Solver and stays safe to
-// call from several goroutines on different Solvers; along a light curve the
-// same goroutine gets the same object back, which keeps the warm start.
+// finiteWork is the scratch state of the finite-source code: the buffers of
+// the contour samples. It is taken from a pool per call, so FiniteMag needs no
+// extra field in Solver and stays safe to call from several goroutines on
+// different Solvers. (The warm start of the central roots is the Solver's.)
 type finiteWork struct {
-	lens     Binary
-	warm     [5]complex128
-	haveWarm bool
-	ct       contour
+	ct contour
 }
 
 var finitePool = sync.Pool{New: func() any { return new(finiteWork) }}

@@ -208,6 +208,7 @@ func (c *contour) disk(l0 *fsLens, zc complex128, r, tol float64, warm *[5]compl
 		c.s = append(c.s, ctSample{th: a.th + h/2, nxt: b})
 		a = &c.s[it.i]
 		pred := c.predict(a, &c.s[b], h)
+		// fsLens.track when the images of a all continue to b.
 		imgs := a.track
 		if n := bits.OnesCount8(imgs); n != bits.OnesCount8(a.r.img) || n != bits.OnesCount8(c.s[b].r.img) {
 			imgs = 0
@@ -306,7 +307,9 @@ func (c *contour) solveAt(l *fsLens, zc complex128, r float64, i int32, warm *[5
 		zeta := zc + complex(r, 0)*e
 		p.tracked = false
 		if imgs != 0 && try == 0 && l.track(&p.r, zeta, warm, imgs) {
-			p.tracked = true
+			// The matching to the neighbours is known only when no pair
+			// appeared (see interval's hint).
+			p.tracked = p.r.img == imgs
 			break
 		}
 		if !l.solve(&p.r, zeta, warm) {

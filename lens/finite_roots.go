@@ -348,7 +348,7 @@ func (l *fsLens) track(out *fsRoots, zeta complex128, pred *[5]complex128, imgs 
 	if w == 0 || q[2] == 0 {
 		return false
 	}
-	gh := [2]complex128{w / q[2], q[0] / w}
+	gh := [2]complex128{cdiv(w, q[2]), cdiv(q[0], w)}
 	// Polish on the full polynomial (the division carries the images'
 	// round-off into the quadratic).
 	for i := range gh {

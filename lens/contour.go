@@ -253,7 +253,9 @@ func (c *contour) seeds(l *fsLens, zc complex128, r, off float64) []float64 {
 	for k := 0; k < ctInitial; k++ {
 		th = append(th, off+step*float64(k))
 	}
-	c.cross = causticFor(l.b).crossings(c.cross[:0], zc, r, off)
+	// A map whose caustics lie within r/4 of the lens's serves (orbital
+	// motion, see causticFor): the seeds need only separate the crossings.
+	c.cross = causticFor(l.b, r/4).crossings(c.cross[:0], zc, r, off)
 	nc := len(c.cross)
 	for i := 0; i < nc && nc > 1; i++ {
 		t0, t1 := c.cross[i], 0.0

@@ -125,7 +125,7 @@ func (w *finiteWork) finiteMag(s *Solver, zeta complex128, rho, ld, tol float64)
 	}
 	gamma := GammaFromLD(ld)
 	est := l.estimate(&r0, zeta, rho)
-	if d := causticFor(b).distance(b, zeta, 10*rho); d < est.dist {
+	if d := causticDistance(b, zeta, rho); d < est.dist {
 		est.dist = d
 	}
 	qc := 1 - gamma/5
@@ -162,6 +162,24 @@ func (w *finiteWork) finiteMag(s *Solver, zeta complex128, rho, ld, tol float64)
 	}
 	f.Method = Contour
 	return f, nil
+}
+
+// causticDistance is the distance from zeta to the caustics of b as the method
+// switch needs it: exact enough where it decides (within psReach·ρ + a
+// margin), a lower bound beyond. With orbital motion each epoch has its own s
+// and the sampled caustics of a nearby s serve (causticFor), in tiers: a map
+// within 0.05 θE of b's caustics for points far from them, within 10ρ, and
+// within ρ/4 only where the decision hangs on it. A light curve through a
+// caustic region then builds a few maps instead of one per epoch.
+func causticDistance(b Binary, zeta complex128, rho float64) float64 {
+	d := 0.0
+	for _, shift := range [3]float64{0.05, 10 * rho, rho / 4} {
+		d = causticFor(b, shift).distance(b, zeta, 10*rho)
+		if d >= psReach*rho {
+			break
+		}
+	}
+	return d
 }
 
 // mpConsistent checks the 13-point terms against the analytic ones: a caustic

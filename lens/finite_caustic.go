@@ -4,6 +4,7 @@ import (
 	"math"
 	"math/cmplx"
 	"sync"
+	"sync/atomic"
 )
 
 // causticCache keeps the sampled caustics of the last few lenses (a light
@@ -15,18 +16,35 @@ var causticCache struct {
 	next int
 }
 
-// causticFor returns the sampled caustics of b, building them on first use.
-func causticFor(b Binary) *causticMap {
+// causticBuilds counts the maps built (benchmarks report it).
+var causticBuilds atomic.Int64
+
+// causticFor returns sampled caustics for b, building them when no cached map
+// will do. A map built for the same q and a nearby separation s′ serves when
+// its caustics lie within shift of those of b: every caustic point moves at
+// most rate·|s − s′| (causticMap.rate), and distance subtracts that bound, so
+// the method switch stays on the safe side. With orbital motion (s changing
+// linearly in time) every epoch has its own s; without this a light curve
+// rebuilt the map (~1 ms) at every point.
+func causticFor(b Binary, shift float64) *causticMap {
 	causticCache.Lock()
+	var best *causticMap
+	bestShift := math.Inf(1)
 	for _, m := range causticCache.maps {
-		if m != nil && m.b == b {
-			causticCache.Unlock()
-			return m
+		if m == nil || m.b.Q != b.Q {
+			continue
+		}
+		if d := m.shift(b); d <= shift && d < bestShift {
+			best, bestShift = m, d
 		}
 	}
 	causticCache.Unlock()
+	if best != nil {
+		return best
+	}
 	m := new(causticMap)
 	m.build(b)
+	causticBuilds.Add(1)
 	causticCache.Lock()
 	causticCache.maps[causticCache.next] = m
 	causticCache.next = (causticCache.next + 1) % len(causticCache.maps)
@@ -48,6 +66,18 @@ type causticMap struct {
 	b      Binary
 	ok     bool
 	tracks [4]causticTrack
+	// rate bounds |∂ζ/∂s| over the caustic points, with a factor 2 for the
+	// change of the rate itself over the separations one map serves.
+	rate float64
+}
+
+// shift bounds how far the caustics of b lie from those of the map (b must
+// have the map's q).
+func (c *causticMap) shift(b Binary) float64 {
+	if b.S == c.b.S {
+		return 0
+	}
+	return c.rate * math.Abs(b.S-c.b.S)
 }
 
 // closing returns the segment that closes track k across φ = 2π: its last
@@ -193,13 +223,36 @@ func (l *fsLens) criticalQuartic(e complex128, start *[5]complex128, cold bool) 
 func (c *causticMap) build(b Binary) {
 	l := newFSLens(b)
 	var z [5]complex128
+	rate := 0.0
+	// The lenses move with s: z1 = −m2·s, z2 = m1·s.
+	dz1, dz2 := complex(-l.m2, 0), complex(l.m1, 0)
+	m1, m2 := complex(l.m1, 0), complex(l.m2, 0)
 	for i := 0; i < causticSamples; i++ {
 		l.criticalQuartic(cmplx.Rect(1, 2*math.Pi*float64(i)/causticSamples), &z, i == 0)
 		for k := 0; k < 4; k++ {
 			f, _, _ := l.lensEq(z[k], 0)
 			c.tracks[k].pts[i] = f // ζ(z) − 0
+			// ∂ζ/∂s of the caustic point for this φ (derived here): the
+			// critical point obeys F = Σ mi/(z−zi)² − e^{iφ} = 0, so
+			// dz/ds = −F_s/F_z with F_z = −2Σ mi/(z−zi)³ and
+			// F_s = 2Σ mi ż_i/(z−zi)³; then ζ = z − Σ mi/(z̄−z̄i) gives
+			// dζ/ds = ż + Σ mi(ż̄ − ż_i)/(z̄−z̄i)².
+			h1, h2 := fsInv(z[k]-complex(l.z1, 0)), fsInv(z[k]-complex(l.z2, 0))
+			h13, h23 := m1*h1*h1*h1, m2*h2*h2*h2
+			fz := -2 * (h13 + h23)
+			if fz == 0 {
+				continue
+			}
+			dz := cdiv(2*(h13*dz1+h23*dz2), fz)
+			cdz := fsConj(dz)
+			ch1, ch2 := fsConj(h1), fsConj(h2)
+			dzeta := dz + m1*(cdz-dz1)*ch1*ch1 + m2*(cdz-dz2)*ch2*ch2
+			if r := fsAbs(dzeta); r > rate {
+				rate = r
+			}
 		}
 	}
+	c.rate = 2 * rate
 	const n = causticSamples
 	for k := range c.tracks {
 		t := &c.tracks[k]
@@ -232,11 +285,15 @@ func (c *causticMap) build(b Binary) {
 }
 
 // distance returns the distance from zeta to the sampled caustic of b, or a
-// value > cutoff when it exceeds cutoff.
+// value > cutoff when it exceeds cutoff. For a map built at another s (see
+// causticFor) it is less the bound on the caustics' shift: never more than
+// the true distance.
 func (c *causticMap) distance(b Binary, zeta complex128, cutoff float64) float64 {
-	if !c.ok || c.b != b {
+	if !c.ok || c.b.Q != b.Q {
 		c.build(b)
 	}
+	shift := c.shift(b)
+	cutoff += shift
 	x, y := real(zeta), imag(zeta)
 	best := math.Inf(1)
 	for k := range c.tracks {
@@ -260,7 +317,7 @@ func (c *causticMap) distance(b Binary, zeta complex128, cutoff float64) float64
 			}
 		}
 	}
-	return math.Max(best, 0)
+	return math.Max(best-shift, 0)
 }
 
 // boxFar reports whether (x, y) is farther than lim from the box of ch.

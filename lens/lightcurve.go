@@ -22,6 +22,10 @@ func (e *Evaluator) ResetCounts() { e.Counts = [Contour + 1]int{} }
 // off, when non-nil, holds the parallax offset at each time (see Offset); nil
 // means no parallax. Each point picks its own method: point source, a multipole
 // expansion or full finite source (see Solver.FiniteMag and SingleMag).
+// With orbital motion every epoch has its own s: the Solver is given the new
+// lens (keeping its warm start), and the finite-source method switch reads
+// the caustics from maps built at nearby s (causticDistance), so a curve
+// builds a few maps rather than one per epoch.
 // It panics if dst or a non-nil off differ in length from times.
 func (e *Evaluator) LightCurve(dst []float64, m *Model, times []float64, off []Offset) error {
 	if len(dst) != len(times) || (off != nil && len(off) != len(times)) {

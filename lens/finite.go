@@ -174,9 +174,10 @@ func (w *finiteWork) finiteMag(s *Solver, zeta complex128, rho, ld, tol float64)
 func causticDistance(b Binary, zeta complex128, rho float64) float64 {
 	d := 0.0
 	for _, shift := range [3]float64{0.05, 10 * rho, rho / 4} {
-		d = causticFor(b, shift).distance(b, zeta, 10*rho)
-		if d >= psReach*rho {
-			break
+		m := causticFor(b, shift)
+		d = m.distance(b, zeta, 10*rho)
+		if d >= psReach*rho || m.shift(b) <= rho/4 {
+			break // decided, or as exact as the last tier would be
 		}
 	}
 	return d

@@ -75,16 +75,20 @@ const (
 // accuracy tol (0 means DefaultTol).
 //
 // The cheapest adequate method is chosen per call. From the images of the
-// source centre it computes analytically the quadrupole term of each image
-// (Laplacian of its magnification, see imgDeriv), an estimate of the
+// source centre (all five roots from the Solver, allRoots, warm-started from
+// its previous call) it computes analytically the quadrupole term of each
+// image (Laplacian of its magnification, see imgDeriv), an estimate of the
 // hexadecapole term, and an estimate of the distance to the nearest caustic
-// (from the near-critical images, and from a sampled copy of the caustics kept
-// per lens, see causticMap). With these it picks,
-// in order: point source, analytic quadrupole, the 13-point hexadecapole of
-// Gould (2008) with a consistency check against the analytic terms, or full
-// contour integration (see contour.go, annuli.go). Err is the estimated
-// absolute error; the tests measure the true error against brute-force
-// integration.
+// (from the near-critical images, and from sampled copies of the caustics
+// kept per lens and reused for nearby s under orbital motion, see
+// causticDistance). With these it picks, in order: point source, analytic
+// quadrupole, the 13-point hexadecapole of Gould (2008) with a consistency
+// check against the analytic terms, or full contour integration (contour.go;
+// limb darkening by annuli, contour_annuli.go), whose error estimate runs
+// well above the true error so that it is asked for ctTolCut·tol. Err is the
+// estimated absolute error; the tests measure the true error against the
+// image-plane brute force (finite_table_test.go) and contours at tight
+// tolerance (TestLimbNearLens, TestNearCausticConvergence).
 //
 // rho = 0 gives the point-source magnification. Errors: a non-finite or
 // negative rho, ld outside [0, 1], a negative or non-finite tol, a non-finite

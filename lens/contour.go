@@ -112,12 +112,11 @@ func (c *contour) disk(l0 *fsLens, zc complex128, r, tol float64, warm *[5]compl
 	// (fsLens.o): the area terms ½Im(z̄a zb) of images next to a planet then
 	// keep the digits that the centre-of-mass frame spends on the planet's
 	// position. (The heavier lens's frame would resolve sources next to it
-	// better, but it loses the image next to the lighter lens, whose
-	// misclassification then pairs it with a far image through a join.)
-	// Areas do not depend on the frame.
+	// better, but it cannot resolve the image next to the lighter lens of a
+	// small q, whose misclassification then pairs it with a far image
+	// through a join.) Areas do not depend on the frame.
 	o := l0.o
 	lw := l0.shifted(o)
-	lw.o = 0 // the polynomial in this frame too
 	l := &lw
 	zc -= complex(o, 0)
 	if warm != nil {
@@ -127,6 +126,33 @@ func (c *contour) disk(l0 *fsLens, zc complex128, r, tol float64, warm *[5]compl
 		}
 		warm = &w
 	}
+	// A boundary passing a lens closer than η·r (η = 1e-3·tol) is moved
+	// out to 2η·r from it: at the lens the images of the boundary jump
+	// around the lens's Einstein ring within a stretch of θ of the order of
+	// the miss distance over r, which round-off cannot resolve. The mean
+	// magnification of the disk changes by O(η log(1/η)) relative (the
+	// circle-mean magnification diverges only logarithmically as the circle
+	// nears a lens); the area is scaled back to radius r and the change is
+	// charged to the error.
+	r0 := r
+	eta := 1e-3 * tol
+	for _, zl := range [2]float64{l.z1, l.z2} {
+		d := fsAbs(zc-complex(zl, 0)) - r
+		if math.Abs(d) < eta*r0 {
+			if d >= 0 {
+				r = r0 - 2*eta*r0
+			} else {
+				r = r0 + 2*eta*r0
+			}
+		}
+	}
+	defer func() {
+		if r != r0 && ok {
+			scale := (r0 / r) * (r0 / r)
+			area *= scale
+			errEst = errEst*scale + math.Abs(area)*4*eta*(1+math.Log(1/eta))
+		}
+	}()
 	c.s = c.s[:0]
 	c.heap = c.heap[:0]
 	c.samples = 0

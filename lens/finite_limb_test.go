@@ -22,7 +22,7 @@ func limbNearLensCases() (cases []struct {
 		z1, z2, _, _ := b.Lenses()
 		for _, rho := range []float64{1e-4, 1e-2} {
 			for li, zl := range []float64{z1, z2} {
-				for _, d := range []float64{1e-3, 1e-5, 1e-7, 1e-9} {
+				for _, d := range []float64{1e-3, 1e-5, 1e-7, 1e-9, 0} {
 					for _, inside := range []bool{false, true} {
 						u := 1 + d
 						if inside {
@@ -51,16 +51,17 @@ func limbNearLensCases() (cases []struct {
 }
 
 // TestLimbNearLens: a disk whose edge passes within 1e-3 to 1e-9 ρ of a lens,
-// uniform and limb-darkened, at tol 1e-3. A boundary point δ from a lens of
+// or through it (to round-off), uniform and limb-darkened, at tol 1e-3. A boundary point δ from a lens of
 // mass m has images on that lens's Einstein ring moving at ~r/δ per radian of
 // boundary, and one root of the lens polynomial near m/δ; for the heavier lens
 // of a small q the disk also holds the central caustic. The result must be
 // finite and agree with the contour asked for tol 1e-6 (1e-5 with limb
 // darkening) within the error both claim, and within tol where that
-// reference reached 0.3·tol (most must). Before the fixes of
-// this commit, samples landing 1e-7 to 1e-9 ρ from the lens returned
-// nonsense with a huge claimed error (the stopping test saw the garbage
-// area) or ran to the sample cap.
+// reference reached 0.3·tol (most must). Samples landing 1e-7 to 1e-9 ρ
+// from the lens once returned nonsense with a huge claimed error (the stopping
+// test saw the garbage area) or ran to the sample cap; an edge through the
+// lens gave the contour a confident 24× error (now the edge is moved off the
+// lens by 2e-3·tol·ρ, see contour.disk).
 func TestLimbNearLens(t *testing.T) {
 	cases := limbNearLensCases()
 	if testing.Short() {

@@ -225,20 +225,7 @@ func lmResiduals(ctx context.Context, res func(r, x []float64) float64, x, h []f
 				jac[i*n+j] = (r1[i] - r0[i]) / hj
 			}
 		}
-		for a := 0; a < n; a++ {
-			s := 0.0
-			for i := 0; i < nres; i++ {
-				s += jac[i*n+a] * r0[i]
-			}
-			g.SetVec(a, -s)
-			for b := a; b < n; b++ {
-				s := 0.0
-				for i := 0; i < nres; i++ {
-					s += jac[i*n+a] * jac[i*n+b]
-				}
-				A.SetSym(a, b, s)
-			}
-		}
+		normalEquations(A, g, jac, r0[:nres], n)
 		improved := false
 		for evals < maxEval && lambda < 1e10 {
 			Ad.CopySym(A)

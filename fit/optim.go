@@ -368,20 +368,7 @@ func (o *objective) levenbergMarquardt(tol float64) (Status, error) {
 		if !o.jacobian(jac, r0, y) {
 			return Failed, fmt.Errorf("fit: Jacobian could not be evaluated near the bounds")
 		}
-		for a := 0; a < n; a++ {
-			ga := 0.0
-			for i := 0; i < N; i++ {
-				ga += jac[i*n+a] * r0[i]
-			}
-			g.SetVec(a, -ga)
-			for b := a; b < n; b++ {
-				s := 0.0
-				for i := 0; i < N; i++ {
-					s += jac[i*n+a] * jac[i*n+b]
-				}
-				A.SetSym(a, b, s)
-			}
-		}
+		normalEquations(A, g, jac, r0[:N], n)
 		improved := false
 		for tries := 0; tries < 12; tries++ {
 			if o.check() != nil {
@@ -472,4 +459,23 @@ func Optimize(ctx context.Context, l *Likelihood, start lens.Params, specs Specs
 	sol.Fits = append([]DatasetFit(nil), l.Fits()...)
 	sol.Dof = l.N() - sp.Dim() - linearParams(l.ev)
 	return sol, err
+}
+
+// normalEquations sets A = JᵀJ and g = −Jᵀr for the Gauss–Newton step of
+// Levenberg–Marquardt, J the len(r)×n Jacobian stored row-major in jac.
+func normalEquations(A *mat.SymDense, g *mat.VecDense, jac, r []float64, n int) {
+	for a := 0; a < n; a++ {
+		ga := 0.0
+		for i := range r {
+			ga += jac[i*n+a] * r[i]
+		}
+		g.SetVec(a, -ga)
+		for b := a; b < n; b++ {
+			s := 0.0
+			for i := range r {
+				s += jac[i*n+a] * jac[i*n+b]
+			}
+			A.SetSym(a, b, s)
+		}
+	}
 }

@@ -69,11 +69,11 @@ func refCheck(t *testing.T, pts []fsRefPoint, ld, tol float64, verbose bool) []f
 }
 
 func TestFiniteVsBruteForce(t *testing.T) {
-	// 80 configurations (4 ρ × 4 q × 5 s) × per points. The grid reference
-	// is not yet accurate enough where the disk holds a lens or a caustic
-	// (1-2 % off at disks centred on a lens, where §2b gives the exact value
-	// and the contour agrees to 1e-6), so the comparison runs only on request:
-	// LENSBOOK_FINITE_REF=short (80 points) or =full (2000 points).
+	// 80 configurations (4 ρ × 4 q × 5 s) × per points, freshly drawn and
+	// computed with the image-plane brute force (finite_imageplane_test.go).
+	// That costs seconds to minutes, so it runs only on request:
+	// LENSBOOK_FINITE_REF=short (80 points) or =full (2000 points). CI checks
+	// the stored table of the same brute force instead (finite_table_test.go).
 	per := 0
 	switch os.Getenv("LENSBOOK_FINITE_REF") {
 	case "short":
@@ -82,7 +82,7 @@ func TestFiniteVsBruteForce(t *testing.T) {
 		per = 25
 	}
 	if per == 0 {
-		t.Skip("set LENSBOOK_FINITE_REF=short or full to compare with the brute-force grid")
+		t.Skip("set LENSBOOK_FINITE_REF=short or full to compare with the image-plane brute force on fresh points")
 	}
 	pts := fsRefSet(per, 1)
 	errs := refCheck(t, pts, 0, 1e-3, true)

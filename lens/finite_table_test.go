@@ -169,8 +169,6 @@ func TestWriteFiniteReference(t *testing.T) {
 		t.Skip("regenerates the reference table: run with -args -update-finite-ref")
 	}
 	pts, lds := finiteRefPoints()
-	rows := make([]finiteRefRow, len(pts))
-	cpu := make([]time.Duration, len(pts))
 	geom := map[Binary]*finiteRefGeom{}
 	for _, p := range pts {
 		b := Binary{S: p.s, Q: p.q}
@@ -179,38 +177,14 @@ func TestWriteFiniteReference(t *testing.T) {
 			geom[b] = &g
 		}
 	}
-	jobs := make(chan int)
-	var wg sync.WaitGroup
-	var mu sync.Mutex
-	done := 0
 	start := time.Now()
-	for w := 0; w < 2; w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for i := range jobs {
-				p := pts[i]
-				b := Binary{S: p.s, Q: p.q}
-				t0 := time.Now()
-				m, e, runs := imagePlaneMag(binaryMasses(b), p.zeta, p.rho, lds[i], finiteRefAcc)
-				cpu[i] = time.Since(t0)
-				last := runs[len(runs)-1]
-				rows[i] = finiteRefRow{s: p.s, q: p.q, zeta: p.zeta, rho: p.rho, u: lds[i], mag: m, err: e,
-					bound: last.Bound, draw: p.kind, class: geom[b].classify(p.zeta, p.rho)}
-				mu.Lock()
-				done++
-				if done%100 == 0 {
-					t.Logf("%d/%d rows, %v", done, len(pts), time.Since(start).Round(time.Second))
-				}
-				mu.Unlock()
+	rows, cpu := imagePlaneRows(pts, lds, finiteRefAcc,
+		func(p fsRefPoint) string { return geom[Binary{S: p.s, Q: p.q}].classify(p.zeta, p.rho) },
+		func(done int) {
+			if done%100 == 0 {
+				t.Logf("%d/%d rows, %v", done, len(pts), time.Since(start).Round(time.Second))
 			}
-		}()
-	}
-	for i := range pts {
-		jobs <- i
-	}
-	close(jobs)
-	wg.Wait()
+		})
 
 	var sb strings.Builder
 	fmt.Fprintf(&sb, "# Finite-source binary-lens reference magnifications (lens frame of the package doc).\n")
@@ -225,13 +199,7 @@ func TestWriteFiniteReference(t *testing.T) {
 	fmt.Fprintf(&sb, "# under halving the leaf size; limb-darkened: that change); bound = the rigorous error bound\n")
 	fmt.Fprintf(&sb, "# (uniform only, NaN otherwise); draw = how the point was drawn; class = what the disk holds\n")
 	fmt.Fprintf(&sb, "# (lens-in-disk, cusp within 2 rho, caustic-crossing, fold within 2 rho, near; see classify).\n")
-	sb.WriteString(finiteRefHeader + "\n")
-	g := func(x float64) string { return strconv.FormatFloat(x, 'g', -1, 64) }
-	e := func(x float64) string { return strconv.FormatFloat(x, 'g', 3, 64) }
-	for _, r := range rows {
-		fmt.Fprintf(&sb, "%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s\n", g(r.s), g(r.q), g(real(r.zeta)), g(imag(r.zeta)), g(r.rho), g(r.u),
-			strconv.FormatFloat(r.mag, 'g', 12, 64), e(r.err), e(r.bound), strings.ReplaceAll(r.draw, " ", "-"), r.class)
-	}
+	writeRefRows(&sb, rows)
 	if err := os.MkdirAll(filepath.Dir(finiteRefPath), 0o755); err != nil {
 		t.Fatal(err)
 	}
@@ -416,5 +384,56 @@ func TestFiniteReferenceFresh(t *testing.T) {
 		if d > e+r.err {
 			t.Errorf("%s:%d: table %.10g, brute force now %.10g: the table is stale (regenerate: %s)", finiteRefPath, r.line, r.mag, m, finiteRefCmd)
 		}
+	}
+}
+
+// imagePlaneRows computes the image-plane brute force of every point to
+// relative accuracy acc on two workers; class names what each disk holds,
+// progress (if not nil) hears the count of finished rows. cpu[i] is the time
+// row i took.
+func imagePlaneRows(pts []fsRefPoint, lds []float64, acc float64, class func(fsRefPoint) string, progress func(done int)) (rows []finiteRefRow, cpu []time.Duration) {
+	rows = make([]finiteRefRow, len(pts))
+	cpu = make([]time.Duration, len(pts))
+	jobs := make(chan int)
+	var wg sync.WaitGroup
+	var mu sync.Mutex
+	done := 0
+	for w := 0; w < 2; w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for i := range jobs {
+				p := pts[i]
+				t0 := time.Now()
+				m, e, runs := imagePlaneMag(binaryMasses(Binary{S: p.s, Q: p.q}), p.zeta, p.rho, lds[i], acc)
+				cpu[i] = time.Since(t0)
+				rows[i] = finiteRefRow{s: p.s, q: p.q, zeta: p.zeta, rho: p.rho, u: lds[i], mag: m, err: e,
+					bound: runs[len(runs)-1].Bound, draw: p.kind, class: class(p)}
+				if progress != nil {
+					mu.Lock()
+					done++
+					progress(done)
+					mu.Unlock()
+				}
+			}
+		}()
+	}
+	for i := range pts {
+		jobs <- i
+	}
+	close(jobs)
+	wg.Wait()
+	return rows, cpu
+}
+
+// writeRefRows writes the header line and the rows in the column format of
+// reference.csv (read back by the table loader).
+func writeRefRows(sb *strings.Builder, rows []finiteRefRow) {
+	sb.WriteString(finiteRefHeader + "\n")
+	g := func(x float64) string { return strconv.FormatFloat(x, 'g', -1, 64) }
+	e := func(x float64) string { return strconv.FormatFloat(x, 'g', 3, 64) }
+	for _, r := range rows {
+		fmt.Fprintf(sb, "%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s\n", g(r.s), g(r.q), g(real(r.zeta)), g(imag(r.zeta)), g(r.rho), g(r.u),
+			strconv.FormatFloat(r.mag, 'g', 12, 64), e(r.err), e(r.bound), strings.ReplaceAll(r.draw, " ", "-"), r.class)
 	}
 }

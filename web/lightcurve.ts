@@ -138,31 +138,23 @@ export class LightCurvePlot {
     ctx.clip();
     for (const b of this.bands) {
       // one closed polygon per run of finite values: along the upper edge, back along the lower one
-      let i = 0;
-      const n = b.t.length;
-      while (i < n) {
-        while (i < n && !(Number.isFinite(b.lo[i]) && Number.isFinite(b.hi[i]))) i++;
-        let j = i;
-        while (j < n && Number.isFinite(b.lo[j]) && Number.isFinite(b.hi[j])) j++;
-        if (j - i >= 2) {
-          ctx.beginPath();
-          for (let k = i; k < j; k++) {
-            const x = u.valToPos(b.t[k], "x", true);
-            const y = u.valToPos(b.hi[k], "y", true);
-            if (k === i) ctx.moveTo(x, y);
-            else ctx.lineTo(x, y);
-          }
-          for (let k = j - 1; k >= i; k--) ctx.lineTo(u.valToPos(b.t[k], "x", true), u.valToPos(b.lo[k], "y", true));
-          ctx.closePath();
-          ctx.globalAlpha = 0.28;
-          ctx.fillStyle = b.colour;
-          ctx.fill();
-          ctx.globalAlpha = 0.7;
-          ctx.strokeStyle = b.colour;
-          ctx.lineWidth = devicePixelRatio;
-          ctx.stroke();
+      for (const [i, j] of finiteRuns(b.t.length, b.lo, b.hi)) {
+        ctx.beginPath();
+        for (let k = i; k < j; k++) {
+          const x = u.valToPos(b.t[k], "x", true);
+          const y = u.valToPos(b.hi[k], "y", true);
+          if (k === i) ctx.moveTo(x, y);
+          else ctx.lineTo(x, y);
         }
-        i = j;
+        for (let k = j - 1; k >= i; k--) ctx.lineTo(u.valToPos(b.t[k], "x", true), u.valToPos(b.lo[k], "y", true));
+        ctx.closePath();
+        ctx.globalAlpha = 0.28;
+        ctx.fillStyle = b.colour;
+        ctx.fill();
+        ctx.globalAlpha = 0.7;
+        ctx.strokeStyle = b.colour;
+        ctx.lineWidth = devicePixelRatio;
+        ctx.stroke();
       }
     }
     ctx.restore();
@@ -529,4 +521,19 @@ class AlignCache {
     this.pos = cols.map((c) => Int32Array.from(c.x, (v) => index.get(v)!));
     this.xs = cols.map((c) => c.x);
   }
+}
+
+/** The runs [i, j) of at least two consecutive indices below n where both lo
+ * and hi are finite: a band is drawn as one polygon per run, gaps left open. */
+export function finiteRuns(n: number, lo: ArrayLike<number>, hi: ArrayLike<number>): Array<[number, number]> {
+  const runs: Array<[number, number]> = [];
+  let i = 0;
+  while (i < n) {
+    while (i < n && !(Number.isFinite(lo[i]) && Number.isFinite(hi[i]))) i++;
+    let j = i;
+    while (j < n && Number.isFinite(lo[j]) && Number.isFinite(hi[j])) j++;
+    if (j - i >= 2) runs.push([i, j]);
+    i = j;
+  }
+  return runs;
 }

@@ -2,7 +2,7 @@
 // corner plot, and the exportable light curve. Drawing only.
 
 import { caption, INK, MUTED, newFigure, Panel, ramp, SOLUTION_COLOURS, svg } from "./figures";
-import type { PlotInput } from "./lightcurve";
+import { finiteRuns, type PlotInput } from "./lightcurve";
 
 export interface Chi2Map {
   log_s: number[]; // node centres
@@ -270,18 +270,10 @@ export function forecastFigure(input: PlotInput, bands: BandSeries[], window: [n
   }
   for (const b of bands) {
     let d = "";
-    let i = 0;
-    const n = b.t.length;
-    while (i < n) {
-      while (i < n && !(Number.isFinite(b.lo[i]) && Number.isFinite(b.hi[i]))) i++;
-      let j = i;
-      while (j < n && Number.isFinite(b.lo[j]) && Number.isFinite(b.hi[j])) j++;
-      if (j - i >= 2) {
-        for (let k = i; k < j; k++) d += (k === i ? "M" : "L") + p.x(b.t[k]).toFixed(2) + " " + p.y(b.hi[k]).toFixed(2);
-        for (let k = j - 1; k >= i; k--) d += "L" + p.x(b.t[k]).toFixed(2) + " " + p.y(b.lo[k]).toFixed(2);
-        d += "Z";
-      }
-      i = j;
+    for (const [i, j] of finiteRuns(b.t.length, b.lo, b.hi)) {
+      for (let k = i; k < j; k++) d += (k === i ? "M" : "L") + p.x(b.t[k]).toFixed(2) + " " + p.y(b.hi[k]).toFixed(2);
+      for (let k = j - 1; k >= i; k--) d += "L" + p.x(b.t[k]).toFixed(2) + " " + p.y(b.lo[k]).toFixed(2);
+      d += "Z";
     }
     if (d) p.plot.append(svg("path", { d, fill: b.colour, "fill-opacity": 0.25, stroke: b.colour, "stroke-opacity": 0.6, "stroke-width": 0.8 }));
     p.polyline(b.t, b.mid, b.colour, 1.4);

@@ -129,8 +129,11 @@ func (w *finiteWork) finiteMag(s *Solver, zeta complex128, rho, ld, tol float64)
 	}
 	gamma := GammaFromLD(ld)
 	est := l.estimate(&r0, zeta, rho)
-	if d := causticDistance(b, zeta, rho); d < est.dist {
-		est.dist = d
+	// The images may already put a caustic too close for any expansion.
+	if est.dist > mpReach*rho {
+		if d := causticDistance(b, zeta, rho); d < est.dist {
+			est.dist = d
+		}
 	}
 	qc := 1 - gamma/5
 	hc := 1 - 11*gamma/35

@@ -1,0 +1,111 @@
+package lens
+
+import (
+	"math"
+	"math/cmplx"
+	"testing"
+
+	"gonum.org/v1/gonum/integrate/quad"
+)
+
+// branchTrack is a synthetic image track z(θ) with its first two
+// θ-derivatives, for checking the segment rules against quadrature.
+type branchTrack func(th float64) (z, dz, d2z complex128)
+
+// branchPair builds the two boundary samples of the track at tha and thb.
+func branchPair(f branchTrack, tha, thb float64) (a, b ctSample) {
+	for _, x := range []struct {
+		s  *ctSample
+		th float64
+	}{{&a, tha}, {&b, thb}} {
+		z, dz, d2z := f(x.th)
+		x.s.th = x.th
+		x.s.r.z[0], x.s.dz[0], x.s.d2z[0] = z, dz, d2z
+		x.s.pc[0] = fsCross(dz, d2z)
+		x.s.tau[0] = ctTau(dz, d2z)
+	}
+	return a, b
+}
+
+// TestBranchSegment checks the reparameterised segment rule of
+// ctBranchSegment next to a square-root branch point against the exact
+// segment area ½∫Im(z̄ dz), computed by Gauss–Legendre quadrature (gonum
+// quad.Fixed) in a variable in which the integrand is analytic. The rule's
+// true error must lie within its estimate. Next to a fold crossing the
+// estimate must also be well below the θ rule's (ctSegment), whose
+// θ-derivatives diverge at the crossing: that is what saves bisections.
+func TestBranchSegment(t *testing.T) {
+	A, B, C, D := complex(0.3, -0.2), complex(0.5, 1.1), complex(-0.1, 0.05), complex(0.02, 0.03)
+	// Fold crossing at θc: z = A + Bw + Cw² + D·exp(3w), w = √(θc − θ).
+	const thc = 1.0
+	fold := func(th float64) (z, dz, d2z complex128) {
+		w := math.Sqrt(thc - th)
+		e := D * cmplx.Exp(complex(3*w, 0))
+		zw := B + 2*C*complex(w, 0) + 3*e
+		zww := 2*C + 9*e
+		dw, d2w := -1/(2*w), -1/(4*w*w*w)
+		z = A + B*complex(w, 0) + C*complex(w*w, 0) + e
+		return z, zw * complex(dw, 0), zww*complex(dw*dw, 0) + zw*complex(d2w, 0)
+	}
+	foldExact := func(tha, thb float64) float64 {
+		// in w, θ = θc − w²
+		f := func(w float64) float64 {
+			e := D * cmplx.Exp(complex(3*w, 0))
+			z := A + B*complex(w, 0) + C*complex(w*w, 0) + e
+			return 0.5 * fsCross(z, B+2*C*complex(w, 0)+3*e)
+		}
+		// w decreases as θ grows
+		return -quad.Fixed(f, math.Sqrt(thc-thb), math.Sqrt(thc-tha), 40, quad.Legendre{}, 0)
+	}
+	// Near miss at x ± iy: z = A + B·√((θ − x)² + y²) + Cθ.
+	const x, y = 2.0, 0.01
+	miss := func(th float64) (z, dz, d2z complex128) {
+		s := math.Hypot(th-x, y)
+		return A + B*complex(s, 0) + C*complex(th, 0), B*complex((th-x)/s, 0) + C, B * complex(y*y/(s*s*s), 0)
+	}
+	missExact := func(tha, thb float64) float64 {
+		// in v with θ = x + y·sinh v
+		f := func(v float64) float64 {
+			th := x + y*math.Sinh(v)
+			z, dz, _ := miss(th)
+			return 0.5 * fsCross(z, dz) * y * math.Cosh(v)
+		}
+		return quad.Fixed(f, math.Asinh((tha-x)/y), math.Asinh((thb-x)/y), 200, quad.Legendre{}, 0)
+	}
+	for _, c := range []struct {
+		name     string
+		fold     bool
+		f        branchTrack
+		exact    func(a, b float64) float64
+		tha, thb float64
+	}{
+		{"fold, ½h from θc", true, fold, foldExact, thc - 0.025 - 0.05, thc - 0.025},
+		{"fold, h from θc", true, fold, foldExact, thc - 0.1, thc - 0.05},
+		{"fold, 2h from θc", true, fold, foldExact, thc - 0.15, thc - 0.1},
+		{"near miss, centred", false, miss, missExact, x - 0.01, x + 0.01},
+		{"near miss, to one side", false, miss, missExact, x - 0.015, x + 0.005},
+		{"near miss, beside", false, miss, missExact, x + 0.002, x + 0.022},
+	} {
+		a, b := branchPair(c.f, c.tha, c.thb)
+		h := c.thb - c.tha
+		exact := c.exact(c.tha, c.thb)
+		segT, estT := ctSegment(a.r.z[0], b.r.z[0], a.dz[0], b.dz[0], a.d2z[0], b.d2z[0], a.pc[0], b.pc[0], h)
+		seg, est, ok := ctBranchSegment(&a, &b, 0, 0, h)
+		errT := math.Abs(segT - exact)
+		if !ok {
+			t.Logf("%-22s no branch point taken (τ = %.3g, %.3g); θ rule error %.2e (estimate %.2e)", c.name, a.tau[0], b.tau[0], errT, estT)
+			if c.fold {
+				t.Errorf("%s: the fold crossing was not recognised", c.name)
+			}
+			continue
+		}
+		errW := math.Abs(seg - exact)
+		t.Logf("%-22s area %.10g: θ rule error %.2e (estimate %.2e), reparameterised %.2e (estimate %.2e)", c.name, exact, errT, estT, errW, est)
+		if errW > est {
+			t.Errorf("%s: error %.3g beyond its estimate %.3g", c.name, errW, est)
+		}
+		if c.fold && est > estT/4 {
+			t.Errorf("%s: reparameterised estimate %.3g not 4× below the θ rule's %.3g", c.name, est, estT)
+		}
+	}
+}

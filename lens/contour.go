@@ -242,9 +242,12 @@ func (c *contour) disk(l0 *fsLens, zc complex128, r, tol float64, warm *[5]compl
 		c.s = append(c.s, ctSample{th: a.th + h/2, nxt: b})
 		a = &c.s[it.i]
 		pred := c.predict(a, &c.s[b], h)
-		// fsLens.track when the images of a all continue to b.
+		// fsLens.track when the images of a continue to b, also across a
+		// caustic crossing (3 images at one end, 5 at the other, the three
+		// continuing tracked): track's quadratic then says whether the
+		// pair exists at the midpoint.
 		imgs := a.track
-		if n := bits.OnesCount8(imgs); n != bits.OnesCount8(a.r.img) || n != bits.OnesCount8(c.s[b].r.img) {
+		if n := bits.OnesCount8(imgs); n != min(bits.OnesCount8(a.r.img), bits.OnesCount8(c.s[b].r.img)) || !a.clean {
 			imgs = 0
 		}
 		if !c.solveAt(l, zc, r, m, &pred, imgs) {

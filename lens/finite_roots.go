@@ -382,7 +382,10 @@ func (l *fsLens) track(out *fsRoots, zeta complex128, pred *[5]complex128, imgs 
 	for i, k := range slot {
 		z := gh[i]
 		f, g, res := l.lensRes(z, zeta)
-		if res != res {
+		if res != res || (res > 1e-9 && res < 1e-4) {
+			// Neither clearly spurious nor clearly an image (a pair next to
+			// the critical curve, where the deflated quadratic loses digits):
+			// let classify decide, as solve would.
 			return false
 		}
 		if res <= 1e-9 {

@@ -19,7 +19,8 @@ import (
 // disappear on the critical curve; there the two tracks are joined through the
 // critical curve by a parabola tangent to both (the quadratic Bézier through the
 // intersection of the two tangents), which is the leading-order shape of the
-// image boundary at a fold.
+// image boundary at a fold, or, where its error estimate is smaller, as one
+// track of the curve through both images in w = √|θ − θc| (ctFoldJoin).
 //
 // Each segment uses the trapezoid term ½Im(z̄ₐ z_b) plus the parabolic
 // correction (Δθ³/24)[Im(ż̄ z̈)ₐ + Im(ż̄ z̈)_b] of Bozza (2010, MNRAS 408, 2188),
@@ -105,7 +106,7 @@ const (
 	ctMinArc = 1e-14
 	// An interval error below ctNegligible·tol·πr² does not matter even
 	// summed over thousands of intervals.
-	ctNegligible = 1e-5
+	ctNegligible = 1e-2
 )
 
 // disk returns the parity-signed total image area of a uniform disk of radius r
@@ -667,6 +668,9 @@ matched:
 			p, q = q, p
 		}
 		ar, e := ctJoin(a.r.z[p], a.dz[p], a.r.z[q], a.dz[q], a.r.det[p]-a.r.det[q])
+		if ar2, e2, ok := ctFoldJoin(a, p, q, -1); ok && e2 < e {
+			ar, e = ar2, e2
+		}
 		e += ctStale(a.r.z[p]-a.r.z[q], a.dz[p], a.dz[q], -h)
 		a.area += ar
 		a.err += e
@@ -680,6 +684,9 @@ matched:
 			p, q = q, p
 		}
 		ar, e := ctJoin(b.r.z[q], b.dz[q], b.r.z[p], b.dz[p], b.r.det[p]-b.r.det[q])
+		if ar2, e2, ok := ctFoldJoin(b, q, p, 1); ok && e2 < e {
+			ar, e = ar2, e2
+		}
 		e += ctStale(b.r.z[p]-b.r.z[q], b.dz[p], b.dz[q], h)
 		a.area += ar
 		a.err += e
@@ -908,6 +915,43 @@ func ctJoin(A, u, C, v complex128, ddet float64) (area, errEst float64) {
 	}
 	corr := tri / 3
 	return area + corr, 0.25*math.Abs(corr) + 0.1*L*L*math.Abs(ddet)
+}
+
+// ctFoldJoin is the join of ctJoin through the critical curve computed as
+// one track: next to the fold crossing at θc the two images of the pair are
+// the two branches z(±w) of one smooth curve in w = √|θ − θc| (see
+// ctBranchSegment), so the path from root from to root to of sample s runs
+// from w = −w₀ to w₀ and ctSegment integrates it with its error estimate.
+// θc comes from the pair's separation L, which grows like √|θ − θc|:
+// θ − θc = L²/(2L·dL/dθ). sg is +1 for a pair created before s (θ > θc),
+// −1 for one destroyed after it; ok is false when the separation does not
+// say so.
+func ctFoldJoin(s *ctSample, from, to int, sg float64) (area, errEst float64, ok bool) {
+	d := s.r.z[to] - s.r.z[from]
+	dd := s.dz[to] - s.dz[from]
+	rate := real(d)*real(dd) + imag(d)*imag(dd) // L·dL/dθ
+	delta := fsAbs2(d) / (2 * rate)             // θ − θc
+	if !(delta*sg > 0) || math.IsInf(delta, 0) {
+		return 0, 0, false
+	}
+	// The same from each image's own square-root shape (ctTau): the two
+	// must agree, and the change of the area between them is charged.
+	delta2 := -0.5 * (real(s.tau[from]) + real(s.tau[to]))
+	if !(delta2*sg > 0) {
+		return 0, 0, false
+	}
+	area, errEst = ctFoldPath(s, from, to, sg, delta)
+	a2, e2 := ctFoldPath(s, from, to, sg, delta2)
+	return area, math.Max(errEst, e2) + math.Abs(a2-area), true
+}
+
+func ctFoldPath(s *ctSample, from, to int, sg, delta float64) (area, errEst float64) {
+	w0 := math.Sqrt(math.Abs(delta))
+	tf, tt := -2*sg*w0, 2*sg*w0 // dθ/dw at the two ends
+	uf, ut := s.dz[from]*complex(tf, 0), s.dz[to]*complex(tt, 0)
+	vf := s.d2z[from]*complex(tf*tf, 0) + s.dz[from]*complex(2*sg, 0)
+	vt := s.d2z[to]*complex(tt*tt, 0) + s.dz[to]*complex(2*sg, 0)
+	return ctSegment(s.r.z[from], s.r.z[to], uf, ut, vf, vt, fsCross(uf, vf), fsCross(ut, vt), 2*w0)
 }
 
 func (c *contour) push(i int32) {

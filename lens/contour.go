@@ -753,7 +753,8 @@ func ctSegment(za, zb, ua, ub, va, vb complex128, pca, pcb, h float64) (seg, e f
 //
 //   - θ* on the real axis (a crossing just outside the interval): θ = θc ± w²,
 //     in which z(w) is analytic;
-//   - θ* = x* + iy* off the axis by at most the interval: θ = x* + y*·sinh w,
+//   - θ* = x* + iy* off the axis by at most a quarter of the interval (a
+//     larger y* leaves the map nearly linear): θ = x* + y*·sinh w,
 //     in which both √(θ − θ*) and √(θ − θ̄*) are analytic within π/2 of the
 //     real w axis whatever y*.
 //
@@ -808,7 +809,7 @@ func ctBranchSegment(a, b *ctSample, k, j int, h float64) (seg, e float64, ok bo
 		seg, e = ctReparam(a, b, k, j, wb-wa, 2*sg*wa, 2*sg*wb, 2*sg, 2*sg)
 		ok = true
 	}
-	if ys > 0 && ys <= h {
+	if ys > 0 && ys <= h/4 {
 		wa, wb := math.Asinh((tha-xs)/ys), math.Asinh((thb-xs)/ys)
 		s2, e2 := ctReparam(a, b, k, j, wb-wa, math.Hypot(ys, tha-xs), math.Hypot(ys, thb-xs), tha-xs, thb-xs)
 		if e2 < e {

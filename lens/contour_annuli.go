@@ -91,11 +91,8 @@ func (w *finiteWork) annuli(l *fsLens, zc complex128, rho, gamma, tol float64, w
 		return (lo + hi) / 2
 	}
 	// The error budget is shared: half for the annulus sum, half for the
-	// contours (each asked for tol/2 relative to its own area). The contour
-	// estimates run well above the true error (see ctTolCut), so the contours
-	// are asked for ctTolCut times their share; the annulus-sum estimate has
-	// no such margin and gets its share as it is.
-	ctol := ctTolCut * tol / 2
+	// contours (each asked for tol/2 relative to its own area).
+	ctol := tol / 2
 	var ann [maxAnnuli]annulus
 	n := 0
 	samples := 0

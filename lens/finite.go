@@ -62,12 +62,6 @@ const (
 	// distance estimate is rough, hence the margin.
 	psReach = 3
 	mpReach = 2.5
-	// The contour stops when its error estimate reaches ctTolCut·tol: the
-	// estimate runs above the true error by ≥ 3× at every point of a
-	// self-convergence study over the ρ × q × s grid (≥ 7× for 99 %),
-	// so the true error stays below tol; the reference table
-	// (finite_table_test.go) checks it against the image-plane brute force.
-	ctTolCut = 3
 )
 
 // FiniteMag is the magnification of a source of radius rho (θE) at zeta with
@@ -84,8 +78,8 @@ const (
 // causticDistance). With these it picks, in order: point source, analytic
 // quadrupole, the 13-point hexadecapole of Gould (2008) with a consistency
 // check against the analytic terms, or full contour integration (contour.go;
-// limb darkening by annuli, contour_annuli.go), whose error estimate runs
-// well above the true error so that it is asked for ctTolCut·tol. Err is the
+// limb darkening by annuli, contour_annuli.go), asked for tol itself (its
+// error estimate runs above the true error, see ctSegment). Err is the
 // estimated absolute error; the tests measure the true error against the
 // image-plane brute force (finite_table_test.go) and contours at tight
 // tolerance (TestLimbNearLens, TestNearCausticConvergence).
@@ -160,7 +154,7 @@ func (w *finiteWork) finiteMag(s *Solver, zeta complex128, rho, ld, tol float64)
 	var f Finite
 	var ok bool
 	if ld == 0 {
-		f, ok = w.uniform(&l, zeta, rho, ctTolCut*tol, &r0.z)
+		f, ok = w.uniform(&l, zeta, rho, tol, &r0.z)
 	} else {
 		f, ok = w.annuli(&l, zeta, rho, gamma, tol, &r0.z)
 	}

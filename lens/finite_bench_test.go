@@ -219,3 +219,62 @@ func clearCausticCache() {
 	causticCache.maps = [len(causticCache.maps)]*causticMap{}
 	causticCache.Unlock()
 }
+
+// TestBruteForceMatched compares FiniteMag (tol 1e-3) with brute force at
+// equal accuracy on the points of BenchmarkImagePlane: the true errors
+// against the converged reference (imagePlaneMag to finiteRefAcc) and the
+// time per point of the source-plane polar grid (gridDisk, n × 2n points,
+// doubling n) and of one image-plane quadtree walk at a range of η, so that
+// the speed ratios can be read where a brute force's median error matches
+// FiniteMag's. Slow (the converged reference and the large grids): set
+// LENSBOOK_FINITE_REF.
+func TestBruteForceMatched(t *testing.T) {
+	if os.Getenv("LENSBOOK_FINITE_REF") == "" {
+		t.Skip("brute-force reference is slow: set LENSBOOK_FINITE_REF")
+	}
+	bin := Binary{S: 1.2, Q: 1e-3}
+	pts := nearCausticPoints(bin, 1e-3, 64, 5)
+	ref := make([]float64, len(pts))
+	for i, p := range pts {
+		ref[i], _, _ = imagePlaneMag(binaryMasses(bin), p, 1e-3, 0, finiteRefAcc)
+	}
+	s := NewSolver(bin)
+	var ef []float64
+	t0 := time.Now()
+	const reps = 20
+	for k := 0; k < reps; k++ {
+		for i, p := range pts {
+			f, err := s.FiniteMag(p, 1e-3, 0, 1e-3)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if k == 0 {
+				ef = append(ef, math.Abs(f.Mag/ref[i]-1))
+			}
+		}
+	}
+	tf := time.Since(t0).Seconds() / float64(reps*len(pts))
+	t.Logf("FiniteMag tol 1e-3: %.1f µs/point, true error median %.2g, max %.2g", tf*1e6, fsQuantile(ef, 0.5), fsQuantile(ef, 1))
+	mag := func(z complex128) float64 { a, _ := s.Mag(z); return a }
+	for _, n := range []int{48, 96, 192, 384} {
+		var eg []float64
+		t0 := time.Now()
+		for i, p := range pts {
+			eg = append(eg, math.Abs(gridDisk(mag, p, 1e-3, 0, n)/ref[i]-1))
+		}
+		tg := time.Since(t0).Seconds() / float64(len(pts))
+		t.Logf("polar grid n = %-4d: %8.1f µs/point (%.0f× FiniteMag), true error median %.2g, max %.2g",
+			n, tg*1e6, tg/tf, fsQuantile(eg, 0.5), fsQuantile(eg, 1))
+	}
+	for _, eta := range []float64{1e-3, 3e-3, 1e-2, 3e-2, 0.1} {
+		var ew []float64
+		t0 := time.Now()
+		for i, p := range pts {
+			w := ipWalk{lens: binaryMasses(bin), zeta: p, rho: 1e-3, eta: eta}
+			ew = append(ew, math.Abs(w.run().Mag/ref[i]-1))
+		}
+		tw := time.Since(t0).Seconds() / float64(len(pts))
+		t.Logf("walk η = %-5g: %8.1f µs/point (%.0f× FiniteMag), true error median %.2g, max %.2g",
+			eta, tw*1e6, tw/tf, fsQuantile(ew, 0.5), fsQuantile(ew, 1))
+	}
+}

@@ -141,12 +141,17 @@ func (c *causticMap) crossings(dst []float64, zc complex128, r, th0 float64) []f
 		if !boxMeetsCircle(&t.box, x, y, r) {
 			continue
 		}
-		for j := range t.chunks {
-			if !boxMeetsCircle(&t.chunks[j], x, y, r) {
+		for g := range t.groups {
+			if !boxMeetsCircle(&t.groups[g], x, y, r) {
 				continue
 			}
-			for i := j * chunkLen; i < (j+1)*chunkLen && i < causticSamples-1; i++ {
-				seg(t.pts[i], t.pts[i+1])
+			for j := g * groupLen; j < (g+1)*groupLen; j++ {
+				if !boxMeetsCircle(&t.chunks[j], x, y, r) {
+					continue
+				}
+				for i := j * chunkLen; i < (j+1)*chunkLen && i < causticSamples-1; i++ {
+					seg(t.pts[i], t.pts[i+1])
+				}
 			}
 		}
 	}
@@ -179,7 +184,23 @@ type causticTrack struct {
 	box    causticChunk // bounding box and largest sagitta of the whole track
 	pts    [causticSamples]complex128
 	chunks [causticSamples / chunkLen]causticChunk
+	// groups are the boxes of groupLen consecutive chunks: a source next
+	// to one caustic skips most of the track with a few box tests instead
+	// of one per chunk (distance was 5.7 µs per call before).
+	groups [causticSamples / chunkLen / groupLen]causticChunk
 }
+
+const groupLen = 8
+
+// merge grows the box a to hold b.
+func (a *causticChunk) merge(b *causticChunk) {
+	a.x0, a.x1 = math.Min(a.x0, b.x0), math.Max(a.x1, b.x1)
+	a.y0, a.y1 = math.Min(a.y0, b.y0), math.Max(a.y1, b.y1)
+	a.sag = math.Max(a.sag, b.sag)
+}
+
+// emptyBox is the box that merge grows from.
+var emptyBox = causticChunk{x0: math.Inf(1), y0: math.Inf(1), x1: math.Inf(-1), y1: math.Inf(-1)}
 
 // causticChunk is a run of chunkLen segments with its bounding box and the
 // largest deviation of the curve from its chords there (the second difference
@@ -257,11 +278,13 @@ func (c *causticMap) build(b Binary) {
 	for k := range c.tracks {
 		t := &c.tracks[k]
 		defer func() {
-			t.box = causticChunk{x0: math.Inf(1), y0: math.Inf(1), x1: math.Inf(-1), y1: math.Inf(-1)}
-			for _, ch := range t.chunks {
-				t.box.x0, t.box.x1 = math.Min(t.box.x0, ch.x0), math.Max(t.box.x1, ch.x1)
-				t.box.y0, t.box.y1 = math.Min(t.box.y0, ch.y0), math.Max(t.box.y1, ch.y1)
-				t.box.sag = math.Max(t.box.sag, ch.sag)
+			t.box = emptyBox
+			for g := range t.groups {
+				t.groups[g] = emptyBox
+				for j := g * groupLen; j < (g+1)*groupLen; j++ {
+					t.groups[g].merge(&t.chunks[j])
+				}
+				t.box.merge(&t.groups[g])
 			}
 		}()
 		for j := range t.chunks {
@@ -301,18 +324,30 @@ func (c *causticMap) distance(b Binary, zeta complex128, cutoff float64) float64
 		if boxFar(&t.box, x, y, math.Min(cutoff, best)+t.box.sag) {
 			continue
 		}
-		for j := range t.chunks {
-			ch := &t.chunks[j]
-			dx := math.Max(0, math.Max(ch.x0-x, x-ch.x1))
-			dy := math.Max(0, math.Max(ch.y0-y, y-ch.y1))
-			lim := math.Min(cutoff, best) + ch.sag
-			if dx > lim || dy > lim || dx*dx+dy*dy > lim*lim {
+		for g := range t.groups {
+			if boxFar(&t.groups[g], x, y, math.Min(cutoff, best)+t.groups[g].sag) {
 				continue
 			}
-			for i := j * chunkLen; i < (j+1)*chunkLen && i < causticSamples-1; i++ {
-				d := segDist(zeta, t.pts[i], t.pts[i+1]) - ch.sag
-				if d < best {
-					best = d
+			for j := g * groupLen; j < (g+1)*groupLen; j++ {
+				ch := &t.chunks[j]
+				if boxFar(ch, x, y, math.Min(cutoff, best)+ch.sag) {
+					continue
+				}
+				// d − sag < best ⟺ d² < (best + sag)²: one square root
+				// per chunk instead of one per segment.
+				lim := best + ch.sag
+				lim2 := lim * lim
+				if math.IsInf(best, 1) {
+					lim2 = math.Inf(1)
+				}
+				d2min := lim2
+				for i := j * chunkLen; i < (j+1)*chunkLen && i < causticSamples-1; i++ {
+					if d2 := segDist2(zeta, t.pts[i], t.pts[i+1]); d2 < d2min {
+						d2min = d2
+					}
+				}
+				if d2min < lim2 {
+					best = math.Sqrt(d2min) - ch.sag
 				}
 			}
 		}
@@ -336,14 +371,18 @@ func boxFar(ch *causticChunk, x, y, lim float64) bool {
 	return dx*dx+dy*dy > lim*lim
 }
 
-// segDist is the distance from p to the segment a–b.
-func segDist(p, a, b complex128) float64 {
+// segDist2 is the squared distance from p to the segment a–b.
+func segDist2(p, a, b complex128) float64 {
 	ab := b - a
+	pa := p - a
 	l2 := fsAbs2(ab)
-	if l2 == 0 {
-		return fsAbs(p - a)
+	t := real(pa)*real(ab) + imag(pa)*imag(ab)
+	switch {
+	case t <= 0 || l2 == 0:
+		return fsAbs2(pa)
+	case t >= l2:
+		return fsAbs2(p - b)
 	}
-	t := (real(p-a)*real(ab) + imag(p-a)*imag(ab)) / l2
-	t = math.Max(0, math.Min(1, t))
-	return fsAbs(p - (a + ab*complex(t, 0)))
+	t /= l2
+	return fsAbs2(pa - ab*complex(t, 0))
 }

@@ -490,12 +490,6 @@ func (c *contour) interval(i int32, bad float64, hint *[5]int8) {
 	posA, posB := a.pos, b.pos
 	// Match roots at a to roots at b by their predicted midpoints; two true
 	// images of opposite parity are never the same track.
-	var pa, pb [5]complex128
-	hh := complex(h/2, 0)
-	for k := 0; k < 5; k++ {
-		pa[k] = a.r.z[k] + a.dz[k]*hh
-		pb[k] = b.r.z[k] - b.dz[k]*hh
-	}
 	var cost [5][5]float64
 	var perm, inv [5]int8
 	var usedB uint8
@@ -506,75 +500,83 @@ func (c *contour) interval(i int32, bad float64, hint *[5]int8) {
 		perm, usedB = *hint, usedA
 		goto matched
 	}
-	for ii := 0; ii < na; ii++ {
-		best, bj := inf, 0
-		// conflict: the roots at b of the opposite image parity
-		conflict := uint8(0)
-		if imgA&(1<<ii) != 0 {
-			conflict = imgB & (posB ^ -((posA >> ii) & 1))
+	{
+		var pa, pb [5]complex128
+		hh := complex(h/2, 0)
+		for k := 0; k < 5; k++ {
+			pa[k] = a.r.z[k] + a.dz[k]*hh
+			pb[k] = b.r.z[k] - b.dz[k]*hh
 		}
-		for jj := 0; jj < nbr; jj++ {
-			d := fsAbs2(pa[ii] - pb[jj])
-			if conflict&(1<<jj) != 0 {
-				d = inf
+		for ii := 0; ii < na; ii++ {
+			best, bj := inf, 0
+			// conflict: the roots at b of the opposite image parity
+			conflict := uint8(0)
+			if imgA&(1<<ii) != 0 {
+				conflict = imgB & (posB ^ -((posA >> ii) & 1))
 			}
-			cost[ii][jj] = d
-			if d < best {
-				best, bj = d, jj
-			}
-		}
-		perm[ii] = int8(bj)
-		usedB |= 1 << bj
-	}
-	if na != nbr || usedB != usedA {
-		// The nearest partners are not a one-to-one map: greedy matching on
-		// the cost, cheapest pair first.
-		usedA, usedB = 0, 0
-		for step := min(na, nbr); step > 0; step-- {
-			best, bi, bj := inf, -1, -1
-			for ii := 0; ii < na; ii++ {
-				if usedA&(1<<ii) != 0 {
-					continue
+			for jj := 0; jj < nbr; jj++ {
+				d := fsAbs2(pa[ii] - pb[jj])
+				if conflict&(1<<jj) != 0 {
+					d = inf
 				}
-				for jj := 0; jj < nbr; jj++ {
-					if usedB&(1<<jj) != 0 {
-						continue
-					}
-					if d := cost[ii][jj]; d < best || bi < 0 {
-						best, bi, bj = d, ii, jj
-					}
+				cost[ii][jj] = d
+				if d < best {
+					best, bj = d, jj
 				}
 			}
-			perm[bi] = int8(bj)
-			usedA |= 1 << bi
+			perm[ii] = int8(bj)
 			usedB |= 1 << bj
 		}
-	}
-	for ii := 0; ii < na; ii++ {
-		if usedA&(1<<ii) != 0 {
-			inv[perm[ii]] = int8(ii)
+		if na != nbr || usedB != usedA {
+			// The nearest partners are not a one-to-one map: greedy matching on
+			// the cost, cheapest pair first.
+			usedA, usedB = 0, 0
+			for step := min(na, nbr); step > 0; step-- {
+				best, bi, bj := inf, -1, -1
+				for ii := 0; ii < na; ii++ {
+					if usedA&(1<<ii) != 0 {
+						continue
+					}
+					for jj := 0; jj < nbr; jj++ {
+						if usedB&(1<<jj) != 0 {
+							continue
+						}
+						if d := cost[ii][jj]; d < best || bi < 0 {
+							best, bi, bj = d, ii, jj
+						}
+					}
+				}
+				perm[bi] = int8(bj)
+				usedA |= 1 << bi
+				usedB |= 1 << bj
+			}
 		}
-	}
-	// The matching must be unambiguous: each root's partner clearly nearer
-	// than any rival root at b, unless exchanging the two partners changes
-	// nothing (both a-roots spurious, or both b-roots spurious). Otherwise the
-	// roots moved too far for the sampling and the interval must be bisected.
-	for ii := 0; ii < na && !broken; ii++ {
-		if usedA&(1<<ii) == 0 {
-			continue
+		for ii := 0; ii < na; ii++ {
+			if usedA&(1<<ii) != 0 {
+				inv[perm[ii]] = int8(ii)
+			}
 		}
-		j := int(perm[ii])
-		d1 := 4 * cost[ii][j]
-		for jj := 0; jj < nbr; jj++ {
-			if jj == j || usedB&(1<<jj) == 0 || d1 <= cost[ii][jj] {
+		// The matching must be unambiguous: each root's partner clearly nearer
+		// than any rival root at b, unless exchanging the two partners changes
+		// nothing (both a-roots spurious, or both b-roots spurious). Otherwise the
+		// roots moved too far for the sampling and the interval must be bisected.
+		for ii := 0; ii < na && !broken; ii++ {
+			if usedA&(1<<ii) == 0 {
 				continue
 			}
-			ii2 := inv[jj]
-			if (imgA&(1<<ii) == 0 && imgA&(1<<ii2) == 0) || (imgB&(1<<j) == 0 && imgB&(1<<jj) == 0) {
-				continue
+			j := int(perm[ii])
+			d1 := 4 * cost[ii][j]
+			for jj := 0; jj < nbr; jj++ {
+				if jj == j || usedB&(1<<jj) == 0 || d1 <= cost[ii][jj] {
+					continue
+				}
+				ii2 := inv[jj]
+				if (imgA&(1<<ii) == 0 && imgA&(1<<ii2) == 0) || (imgB&(1<<j) == 0 && imgB&(1<<jj) == 0) {
+					continue
+				}
+				broken = true
+				break
 			}
-			broken = true
-			break
 		}
 	}
 matched:
@@ -619,7 +621,7 @@ matched:
 			// An image that moved far more than its derivatives allow was
 			// not followed (it swept round a lens or jumped between
 			// tracks): the interval is unresolved.
-			if dd := fsAbs2(zb - za); dd > 9*h2*math.Max(fsAbs2(ua), fsAbs2(ub))+1e-30 {
+			if dd := fsAbs2(zb - za); dd > 9*h2*max(fsAbs2(ua), fsAbs2(ub))+1e-30 {
 				broken = true
 			}
 			if !sa {
@@ -754,7 +756,7 @@ func ctSegment(za, zb, ua, ub, va, vb complex128, pca, pcb, h float64) (seg, e f
 	if e5x < ab {
 		e *= e5x / ab
 	}
-	e = math.Max(e, ctCrossFloor*e5abs)
+	e = max(e, ctCrossFloor*e5abs) // both finite or +Inf here; NaN is caught by the caller
 	return seg, e
 }
 

@@ -219,7 +219,14 @@ func (c *contour) disk(l0 *fsLens, zc complex128, r, tol float64, warm *[5]compl
 	if c.maxSamples > 0 {
 		maxN = c.maxSamples
 	}
-	for errEst > tol*(math.Abs(area)-errEst) && len(c.heap) > 0 && len(c.s) < maxN {
+	for len(c.heap) > 0 && len(c.s) < maxN {
+		if !(errEst > tol*(math.Abs(area)-errEst)) {
+			// The running sums say done: confirm on the exact totals
+			// (their round-off let the returned estimate exceed tol).
+			if area, errEst = c.totals(); !(errEst > tol*(math.Abs(area)-errEst)) {
+				break
+			}
+		}
 		it := c.pop()
 		a := &c.s[it.i]
 		if it.ver != a.ver || a.frozen {

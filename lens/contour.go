@@ -859,7 +859,12 @@ func (c *contour) branchSegment(a, b *ctSample, k, j int, h float64) (seg, e flo
 	if !ok {
 		e = math.Inf(1)
 	}
-	if len(c.cross) < 2 {
+	tau := a.tau[k]
+	if fsAbs2(b.dz[j]) > fsAbs2(a.dz[k]) {
+		tau = b.tau[j]
+	}
+	if len(c.cross) < 2 || !(math.Abs(real(tau)) <= ctBranchReach*h) {
+		// No branch point near the track (as in ctBranchSegment).
 		return seg, e, ok
 	}
 	tha, thb := a.th, a.th+h

@@ -837,8 +837,11 @@ func ctBranchSegment(a, b *ctSample, k, j int, h float64) (seg, e float64, ok bo
 		ok = true
 	}
 	if ys > 0 && ys <= h/4 {
-		wa, wb := math.Asinh((tha-xs)/ys), math.Asinh((thb-xs)/ys)
-		s2, e2 := ctReparam(a, b, k, j, wb-wa, math.Hypot(ys, tha-xs), math.Hypot(ys, thb-xs), tha-xs, thb-xs)
+		// w_b − w_a = asinh(x_b√(1+x_a²) − x_a√(1+x_b²)), x = (θ − x*)/y*:
+		// one asinh instead of two.
+		xa, xb := (tha-xs)/ys, (thb-xs)/ys
+		ca, cb := math.Sqrt(1+xa*xa), math.Sqrt(1+xb*xb)
+		s2, e2 := ctReparam(a, b, k, j, math.Asinh(xb*ca-xa*cb), ys*ca, ys*cb, tha-xs, thb-xs)
 		if e2 < e {
 			seg, e = s2, e2
 		}
@@ -881,9 +884,12 @@ func (c *contour) branchSegment(a, b *ctSample, k, j int, h float64) (seg, e flo
 				continue
 			}
 			L := x2 - x1
-			pa := math.Asin(math.Sqrt((tha - x1) / L))
-			pb := math.Asin(math.Sqrt((thb - x1) / L))
-			s2, e2 := ctReparam(a, b, k, j, pb-pa, L*math.Sin(2*pa), L*math.Sin(2*pb), 2*L*math.Cos(2*pa), 2*L*math.Cos(2*pb))
+			// u = sin²φ; sin 2φ = 2√(u(1−u)), cos 2φ = 1 − 2u, and
+			// φ_b − φ_a = asin(√(u_b(1−u_a)) − √(u_a(1−u_b))) (< π/2).
+			ua, ub := (tha-x1)/L, (thb-x1)/L
+			sa, sb := math.Sqrt(ua*(1-ua)), math.Sqrt(ub*(1-ub))
+			hphi := math.Asin(math.Sqrt(ub*(1-ua)) - math.Sqrt(ua*(1-ub)))
+			s2, e2 := ctReparam(a, b, k, j, hphi, 2*L*sa, 2*L*sb, 2*L*(1-2*ua), 2*L*(1-2*ub))
 			if e2 < e {
 				seg, e, ok = s2, e2, true
 			}

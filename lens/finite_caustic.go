@@ -251,7 +251,7 @@ func (c *causticMap) build(b Binary) {
 	for i := 0; i < causticSamples; i++ {
 		l.criticalQuartic(cmplx.Rect(1, 2*math.Pi*float64(i)/causticSamples), &z, i == 0)
 		for k := 0; k < 4; k++ {
-			f, _, _ := l.lensEq(z[k], 0)
+			f, _ := l.lensEq(z[k], 0)
 			c.tracks[k].pts[i] = f // ζ(z) − 0
 			// ∂ζ/∂s of the caustic point for this φ (derived here): the
 			// critical point obeys F = Σ mi/(z−zi)² − e^{iφ} = 0, so

@@ -232,7 +232,7 @@ func TestCriticalPointsAreCritical(t *testing.T) {
 		crit, _ := fsCriticalPoints(b, 90)
 		l := newFSLens(b)
 		for _, z := range crit {
-			_, g, _ := l.lensEq(z, 0)
+			_, g := l.lensEq(z, 0)
 			if d := 1 - fsAbs2(g); math.Abs(d) > 1e-9 {
 				t.Fatalf("b = %v: det J = %g at critical point %v", b, d, z)
 			}

@@ -119,17 +119,21 @@ func fsConj(z complex128) complex128 { return complex(real(z), -imag(z)) }
 // fsCross is Im(conj(a)·b), the z-component of the cross product a × b.
 func fsCross(a, b complex128) float64 { return real(a)*imag(b) - imag(a)*real(b) }
 
-// lensEq returns the lens-equation residual ζ(z) − zeta, ē = ∂ζ/∂z̄ conjugated
-// (that is g(z) = Σ mi/(z − zi)²) and the round-off scale of the residual.
-func (l *fsLens) lensEq(z, zeta complex128) (f, g complex128, scale float64) {
-	h1, h2 := fsInv(z-complex(l.z1, 0)), fsInv(z-complex(l.z2, 0))
+// lensEq returns the lens-equation residual ζ(z) − zeta and ē = ∂ζ/∂z̄
+// conjugated (that is g(z) = Σ mi/(z − zi)²).
+func (l *fsLens) lensEq(z, zeta complex128) (f, g complex128) {
+	f, g, _, _ = l.lensTerms(z, zeta)
+	return f, g
+}
+
+// lensTerms is lensEq with hi = 1/(z − zi), from which lensRes takes the
+// size of the terms.
+func (l *fsLens) lensTerms(z, zeta complex128) (f, g, h1, h2 complex128) {
+	h1, h2 = fsInv(z-complex(l.z1, 0)), fsInv(z-complex(l.z2, 0))
 	m1h1, m2h2 := complex(l.m1, 0)*h1, complex(l.m2, 0)*h2
 	g = m1h1*h1 + m2h2*h2
 	f = z - fsConj(m1h1+m2h2) - zeta
-	a1, a2 := abs1(h1), abs1(h2)
-	az := abs1(z)
-	scale = az + abs1(zeta) + l.m1*a1 + l.m2*a2 + az*(l.m1*a1*a1+l.m2*a2*a2)
-	return f, g, scale
+	return f, g, h1, h2
 }
 
 // lensRes is lensEq with the residual relative to its round-off scale: the
@@ -142,10 +146,7 @@ func (l *fsLens) lensEq(z, zeta complex128) (f, g complex128, scale float64) {
 // (the root sits on a lens). L1 norms (within √2 of |·|): no square roots on
 // this hot path.
 func (l *fsLens) lensRes(z, zeta complex128) (f, g complex128, res float64) {
-	h1, h2 := fsInv(z-complex(l.z1, 0)), fsInv(z-complex(l.z2, 0))
-	m1h1, m2h2 := complex(l.m1, 0)*h1, complex(l.m2, 0)*h2
-	g = m1h1*h1 + m2h2*h2
-	f = z - fsConj(m1h1+m2h2) - zeta
+	f, g, h1, h2 := l.lensTerms(z, zeta)
 	a1, a2 := abs1(h1), abs1(h2)
 	az := abs1(z)
 	terms := az + abs1(zeta) + l.m1*a1 + l.m2*a2
@@ -494,7 +495,7 @@ func (l *fsLens) classify(r *fsRoots, zeta complex128) {
 				lose = j
 			}
 			r.z[lose], r.res[lose] = raw[lose], math.Max(rawRes[lose], 1e-9)
-			_, g, _ := l.lensEq(raw[lose], zeta)
+			_, g := l.lensEq(raw[lose], zeta)
 			r.det[lose] = 1 - fsAbs2(g)
 		}
 	}

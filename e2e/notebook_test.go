@@ -85,6 +85,12 @@ func uploadDemo(t *testing.T, p *page) {
 	for _, s := range tr.Sites {
 		files = append(files, filepath.Join(demoDir, s.File))
 	}
+	uploadFiles(t, p, files)
+}
+
+// uploadFiles puts photometry files into the Data step through its file
+// input and accepts them.
+func uploadFiles(t *testing.T, p *page, files []string) {
 	if err := chromedpUpload(p, "#file-input", files); err != nil {
 		t.Fatal(err)
 	}

@@ -108,6 +108,12 @@ interface GridNode {
   done: boolean;
   params: Params;
 }
+/** fit.Crossing: the caustic crossing the grid read from the data. */
+interface GridCrossing {
+  tIn: number;
+  tOut: number;
+  masked: [number, number][];
+}
 /** protocol.GridOut */
 interface GridOut {
   grid: unknown;
@@ -1027,6 +1033,16 @@ function numberField(label: string, obj: Record<string, unknown>, key: string, i
   return el("label", {}, label + " ", i);
 }
 
+/** The grid's switch for the caustic-crossing seeds (fit.GridSettings.NoCrossing). */
+function crossingBox(set: Record<string, unknown>): HTMLElement {
+  const c = el("input", { type: "checkbox", name: "useCrossing", checked: !set.noCrossing });
+  c.addEventListener("change", () => {
+    set.noCrossing = !c.checked;
+    changed("grid");
+  });
+  return el("label", { title: "When the single-lens residuals jump up and later down, the grid fits a point source without the data around the two jumps and adds trajectories that cross each caustic at the observed times." }, c, " use a caustic crossing read from the data");
+}
+
 function renderSettings(id: StepId, body: HTMLElement, unavailable: boolean): void {
   const set = steps[id].settings;
   const form = el("div", { class: "settings" });
@@ -1063,6 +1079,8 @@ function renderSettings(id: StepId, body: HTMLElement, unavailable: boolean): vo
         numberField("starting α per node", set, "alphas", id, { min: 1 }, true),
         seedBox(),
         el("span", { class: "hint", text: `split across ${pool.size} worker${pool.size === 1 ? "" : "s"}` }),
+        el("br"),
+        crossingBox(set),
       );
       run = runGrid;
       break;
@@ -1172,6 +1190,16 @@ function renderOutputs(id: StepId, body: HTMLElement): void {
       const r = s.result as GridOut | undefined;
       if (!r) break;
       if (r.partial) out.append(el("p", { class: "warn", text: `Partial map: ${r.done} of ${r.total} nodes computed.` }));
+      const gr = r.grid as { crossing?: GridCrossing; settings?: { noCrossing?: boolean } } | undefined;
+      const cr = gr?.crossing;
+      if (cr)
+        out.append(
+          el("p", {
+            id: "grid-crossing",
+            text: `Caustic crossing read from the residuals: entry near HJD′ ${fmt(cr.tIn - TIME_OFFSET, 7)}, exit near HJD′ ${fmt(cr.tOut - TIME_OFFSET, 7)}. The grid fitted a point source without the data in ${cr.masked.length} windows around the jumps and added trajectories crossing each caustic at these times; the refinement fits ρ with every point.`,
+          }),
+        );
+      else if (gr?.settings?.noCrossing) out.append(el("p", { class: "hint", id: "grid-crossing-off", text: "Caustic-crossing seeds were switched off for this grid." }));
       const marks = r.minima.map((m, i) => ({ s: Math.pow(10, m.logS), q: Math.pow(10, m.logQ), label: String(i + 1) }));
       out.append(figureBox(chi2MapFigure({ log_s: r.log_s, log_q: r.log_q, chi2: r.chi2 }, marks), "chi2-map"));
       if (r.minima.length) {

@@ -225,6 +225,10 @@ func TestSwitchWithinTolerance(t *testing.T) {
 // TestNearCausticConvergence: on the benchmark's points (ρ = 1e-3 within 2ρ
 // of a fold or cusp), FiniteMag at tol 1e-3 against the contour at tol 1e-6
 // (self-convergence; the contour itself is checked against exact values above).
+// It also logs the ratio of FiniteMag's error estimate to its true error and,
+// split into disks near the primary (its central caustic, within 0.05 θE) and
+// the rest, the boundary samples and that ratio: the estimate must never be
+// below the true error.
 func TestNearCausticConvergence(t *testing.T) {
 	for _, bin := range []Binary{{1.2, 1e-3}, {1, 1}} {
 		pts := nearCausticPoints(bin, 1e-3, 256, 5)
@@ -233,7 +237,9 @@ func TestNearCausticConvergence(t *testing.T) {
 		}
 		s := NewSolver(bin)
 		l := newFSLens(bin)
-		var errs []float64
+		z1, _, _, _ := bin.Lenses()
+		var errs, ratio []float64
+		var group [2]struct{ samples, ratio []float64 }
 		nOut := 0
 		for _, p := range pts {
 			f, err := s.FiniteMag(p, 1e-3, 0, 1e-3)
@@ -250,8 +256,26 @@ func TestNearCausticConvergence(t *testing.T) {
 			if e > 3e-3 {
 				t.Errorf("b = %v ζ = %v: %v %.8g vs %.8g (rel %.2g)", bin, p, f.Method, f.Mag, ref.Mag, e)
 			}
+			if d := math.Abs(f.Mag - ref.Mag); d > f.Err+ref.Err {
+				t.Errorf("b = %v ζ = %v: true error %.3g above the estimate %.3g", bin, p, d, f.Err)
+			}
+			r := f.Err / math.Max(math.Abs(f.Mag-ref.Mag), ref.Err)
+			ratio = append(ratio, r)
+			g := 1
+			if cmplx.Abs(p-complex(z1, 0)) < 0.05 {
+				g = 0
+			}
+			group[g].samples = append(group[g].samples, float64(f.Samples))
+			group[g].ratio = append(group[g].ratio, r)
 		}
-		t.Logf("b = %v: %d points, median err %.2g, max %.2g, %d beyond tol", bin, len(pts), fsQuantile(errs, 0.5), fsQuantile(errs, 1), nOut)
+		t.Logf("b = %v: %d points, median err %.2g, max %.2g, %d beyond tol; estimate/true error smallest %.2g, median %.2g",
+			bin, len(pts), fsQuantile(errs, 0.5), fsQuantile(errs, 1), nOut, fsQuantile(ratio, 0), fsQuantile(ratio, 0.5))
+		for g, name := range []string{"near the primary", "elsewhere"} {
+			if n := len(group[g].samples); n > 0 {
+				t.Logf("  %-16s %3d points: median %.0f boundary samples, estimate/true error median %.2g",
+					name, n, fsQuantile(group[g].samples, 0.5), fsQuantile(group[g].ratio, 0.5))
+			}
+		}
 		if float64(nOut) > 0.005*float64(len(pts)) {
 			t.Errorf("%d of %d points beyond tol", nOut, len(pts))
 		}

@@ -275,12 +275,22 @@ func (p *page) waitJS(cond string, timeout time.Duration) {
 	}
 }
 
+// click clicks the element as a user would. The page re-renders a step's
+// panel when its state changes; a node replaced between the query and the
+// click ("Could not find node with given id") is queried again.
 func (p *page) click(sel string) {
 	p.t.Helper()
 	ctx, cancel := context.WithTimeout(p.ctx, 30*time.Second)
 	defer cancel()
-	if err := chromedp.Do(ctx, chromedp.Click(chromedp.CSS(sel), chromedp.NodeVisible)); err != nil {
-		p.t.Fatalf("click %s: %v", sel, err)
+	for try := 0; ; try++ {
+		err := chromedp.Do(ctx, chromedp.Click(chromedp.CSS(sel), chromedp.NodeVisible))
+		if err == nil {
+			return
+		}
+		if try >= 4 || !strings.Contains(err.Error(), "Could not find node") {
+			p.t.Fatalf("click %s: %v", sel, err)
+		}
+		time.Sleep(100 * time.Millisecond)
 	}
 }
 

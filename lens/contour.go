@@ -91,7 +91,7 @@ type contour struct {
 	samples int
 	// maxSamples overrides ctMaxSamples when > 0 (references in tests).
 	maxSamples int
-	negl       float64 // interval error below which ctBranchSegment is not tried
+	negl       float64 // track error below which ctBranchSegment is not tried (ctNegligible)
 }
 
 const (
@@ -104,8 +104,13 @@ const (
 	// uncertain by ε/δ relative (ε that round-off), so closer samples are
 	// noise.
 	ctMinArc = 1e-14
-	// An interval error below ctNegligible·tol·πr² does not matter even
-	// summed over thousands of intervals.
+	// The rules adapted to a branch point (ctBranchSegment) are not tried
+	// on a track whose θ-rule error is below ctNegligible·tol·πr²·A0, 1 %
+	// of the error budget at A0, the largest point magnification of the
+	// initial boundary samples: they could only trim what is already small.
+	// Skipping them leaves an estimate larger, never a value less accurate.
+	// On the near-caustic benchmark points this costs a few samples (median
+	// 38 → 41 for q = 1e-3) and saves 5–8 % of the time (paired runs).
 	ctNegligible = 1e-2
 	// ctCrossFloor: the floor of a segment's error estimate as a fraction
 	// of the estimate without cancellation (see ctSegment).
@@ -201,9 +206,7 @@ func (c *contour) disk(l0 *fsLens, zc complex128, r, tol float64, warm *[5]compl
 		}
 	}
 	bad := r * r * a0
-	// The area is at least πr² (magnification ≥ 1): an interval whose
-	// error is below ctNegligible·tol·πr² does not count.
-	c.negl = ctNegligible * tol * math.Pi * r * r
+	c.negl = ctNegligible * tol * math.Pi * r * r * a0
 	for k := range c.s {
 		c.interval(int32(k), bad, nil)
 		c.push(int32(k))

@@ -90,7 +90,7 @@ func TestBranchSegment(t *testing.T) {
 		h := c.thb - c.tha
 		exact := c.exact(c.tha, c.thb)
 		segT, estT := ctSegment(a.r.z[0], b.r.z[0], a.dz[0], b.dz[0], a.d2z[0], b.d2z[0], a.pc[0], b.pc[0], h)
-		seg, est, ok := ctBranchSegment(&a, &b, 0, 0, h)
+		seg, est, _, ok := ctBranchSegment(&a, &b, 0, 0, h)
 		errT := math.Abs(segT - exact)
 		if !ok {
 			t.Logf("%-22s no branch point taken (τ = %.3g, %.3g); θ rule error %.2e (estimate %.2e)", c.name, a.tau[0], b.tau[0], errT, estT)
@@ -191,7 +191,7 @@ func TestBranchPair(t *testing.T) {
 		a, b := branchPair(pair, iv[0], iv[1])
 		h := iv[1] - iv[0]
 		segT, estT := ctSegment(a.r.z[0], b.r.z[0], a.dz[0], b.dz[0], a.d2z[0], b.d2z[0], a.pc[0], b.pc[0], h)
-		seg, est, ok := c.branchSegment(&a, &b, 0, 0, h)
+		seg, est, _, ok := c.branchSegment(&a, &b, 0, 0, h, ctRuleAll)
 		if !ok {
 			t.Errorf("[%g, %g]: no rule for a track between two crossings", iv[0], iv[1])
 			continue

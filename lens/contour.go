@@ -828,15 +828,24 @@ func ctTau(zp, zpp complex128) complex128 {
 	return zp * fsConj(zpp) * complex(0.5/a2, 0)
 }
 
+// ctNearBranch reads the branch point of the track from root k at a to root
+// j at b from its end nearer to it (larger |ż|): τ = ż/(2z̈) there and that
+// end's θ; near is false when the branch point lies farther than
+// ctBranchReach intervals.
+func ctNearBranch(a, b *ctSample, k, j int, h float64) (tau complex128, th float64, near bool) {
+	tau, th = a.tau[k], a.th
+	if fsAbs2(b.dz[j]) > fsAbs2(a.dz[k]) {
+		tau, th = b.tau[j], a.th+h
+	}
+	return tau, th, math.Abs(real(tau)) <= ctBranchReach*h
+}
+
 // ctBranchSegment integrates the track from root k at a to root j at b
 // (interval length h) in a parameter adapted to a nearby square-root branch
 // point; ok is false when there is none.
 func ctBranchSegment(a, b *ctSample, k, j int, h float64) (seg, e float64, rule uint8, ok bool) {
-	tau, th := a.tau[k], a.th
-	if fsAbs2(b.dz[j]) > fsAbs2(a.dz[k]) {
-		tau, th = b.tau[j], a.th+h
-	}
-	if !(math.Abs(real(tau)) <= ctBranchReach*h) {
+	tau, th, near := ctNearBranch(a, b, k, j, h)
+	if !near {
 		return 0, 0, 0, false
 	}
 	tha, thb := a.th, a.th+h
@@ -897,12 +906,7 @@ func (c *contour) branchSegment(a, b *ctSample, k, j int, h float64, want uint8)
 	if want != ctRulePair && want != ctRuleAll {
 		return seg, e, rule, ok
 	}
-	tau := a.tau[k]
-	if fsAbs2(b.dz[j]) > fsAbs2(a.dz[k]) {
-		tau = b.tau[j]
-	}
-	if len(c.cross) < 2 || !(math.Abs(real(tau)) <= ctBranchReach*h) {
-		// No branch point near the track (as in ctBranchSegment).
+	if _, _, near := ctNearBranch(a, b, k, j, h); len(c.cross) < 2 || !near {
 		return seg, e, rule, ok
 	}
 	tha, thb := a.th, a.th+h
@@ -1060,12 +1064,10 @@ func ctFoldJoin(s *ctSample, from, to int, sg float64) (area, errEst float64, ok
 }
 
 func ctFoldPath(s *ctSample, from, to int, sg, delta float64) (area, errEst float64) {
+	// θ = θc + sg·w² from w = −w₀ (root from) to w₀ (root to), both roots
+	// of the one sample s.
 	w0 := math.Sqrt(math.Abs(delta))
-	tf, tt := -2*sg*w0, 2*sg*w0 // dθ/dw at the two ends
-	uf, ut := s.dz[from]*complex(tf, 0), s.dz[to]*complex(tt, 0)
-	vf := s.d2z[from]*complex(tf*tf, 0) + s.dz[from]*complex(2*sg, 0)
-	vt := s.d2z[to]*complex(tt*tt, 0) + s.dz[to]*complex(2*sg, 0)
-	return ctSegment(s.r.z[from], s.r.z[to], uf, ut, vf, vt, fsCross(uf, vf), fsCross(ut, vt), 2*w0)
+	return ctReparam(s, s, from, to, 2*w0, -2*sg*w0, 2*sg*w0, 2*sg, 2*sg)
 }
 
 func (c *contour) push(i int32) {

@@ -20,21 +20,10 @@ import (
 // says that instead, and the notebook keeps the setting.
 func TestGridCrossing(t *testing.T) {
 	dir := filepath.Join(root, "testdata", "events", "planetary-caustic-crossing")
-	b, err := os.ReadFile(filepath.Join(dir, "truth.json"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	var tr demoTruth
-	if err := json.Unmarshal(b, &tr); err != nil {
-		t.Fatal(err)
-	}
-	var files []string
-	for _, s := range tr.Sites {
-		files = append(files, filepath.Join(dir, s.File))
-	}
+	tr := readTruthIn(t, dir)
 	p := newPage(t)
 	p.open("")
-	uploadFiles(t, p, files)
+	uploadFiles(t, p, eventFiles(tr, dir))
 	p.runStep("single", 2*time.Minute)
 	for sel, v := range map[string]any{
 		"#step-grid input[name=logSMin]": 0.1, "#step-grid input[name=logSMax]": 0.16, "#step-grid input[name=ns]": 2,

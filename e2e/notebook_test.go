@@ -79,10 +79,13 @@ type demoTruth struct {
 	} `json:"sites"`
 }
 
-func readTruth(t *testing.T) demoTruth {
-	b, err := os.ReadFile(filepath.Join(demoDir, "truth.json"))
+func readTruth(t *testing.T) demoTruth { return readTruthIn(t, demoDir) }
+
+// readTruthIn reads the truth.json of a simulated event folder.
+func readTruthIn(t *testing.T, dir string) demoTruth {
+	b, err := os.ReadFile(filepath.Join(dir, "truth.json"))
 	if err != nil {
-		t.Fatalf("demo event missing: %v", err)
+		t.Fatalf("event missing: %v", err)
 	}
 	var tr demoTruth
 	if err := json.Unmarshal(b, &tr); err != nil {
@@ -93,12 +96,16 @@ func readTruth(t *testing.T) demoTruth {
 
 // uploadDemo puts the demo files into the Data step through its file input.
 func uploadDemo(t *testing.T, p *page) {
-	tr := readTruth(t)
+	uploadFiles(t, p, eventFiles(readTruth(t), demoDir))
+}
+
+// eventFiles are the photometry files of a simulated event folder.
+func eventFiles(tr demoTruth, dir string) []string {
 	var files []string
 	for _, s := range tr.Sites {
-		files = append(files, filepath.Join(demoDir, s.File))
+		files = append(files, filepath.Join(dir, s.File))
 	}
-	uploadFiles(t, p, files)
+	return files
 }
 
 // uploadFiles puts photometry files into the Data step through its file

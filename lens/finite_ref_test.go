@@ -175,35 +175,44 @@ type fsRefPoint struct {
 func fsRefSet(perConf int, seed uint64) []fsRefPoint {
 	rng := rand.New(rand.NewPCG(seed, 7))
 	var pts []fsRefPoint
-	for _, rho := range []float64{1e-4, 1e-3, 1e-2, 0.1} {
-		for _, q := range []float64{1e-5, 1e-3, 0.3, 1} {
-			for _, s := range []float64{0.5, 0.9, 1.0, 1.2, 2.5} {
-				b := Binary{S: s, Q: q}
-				const n = 720
-				crit, caus := fsCriticalPoints(b, n)
-				cs := fsCusps(crit, caus, n)
-				for i := 0; i < perConf; i++ {
-					p := fsRefPoint{s: s, q: q, rho: rho}
-					switch i % 3 {
-					case 0:
-						p.zeta = caus[rng.IntN(len(caus))]
-						p.kind = "on caustic"
-					case 1:
-						d := 2 * rho * rng.Float64()
-						p.zeta = caus[rng.IntN(len(caus))] + cmplx.Rect(d, 2*math.Pi*rng.Float64())
-						p.kind = "near fold"
-					default:
-						c := cs[rng.IntN(len(cs))]
-						d := 3 * rho * rng.Float64()
-						p.zeta = c + cmplx.Rect(d, 2*math.Pi*rng.Float64())
-						p.kind = "near cusp"
-					}
-					pts = append(pts, p)
-				}
+	for _, c := range fsRefConfigs() {
+		rho := c.rho
+		const n = 720
+		crit, caus := fsCriticalPoints(Binary{S: c.s, Q: c.q}, n)
+		cs := fsCusps(crit, caus, n)
+		for i := 0; i < perConf; i++ {
+			p := fsRefPoint{s: c.s, q: c.q, rho: rho}
+			switch i % 3 {
+			case 0:
+				p.zeta = caus[rng.IntN(len(caus))]
+				p.kind = "on caustic"
+			case 1:
+				d := 2 * rho * rng.Float64()
+				p.zeta = caus[rng.IntN(len(caus))] + cmplx.Rect(d, 2*math.Pi*rng.Float64())
+				p.kind = "near fold"
+			default:
+				cusp := cs[rng.IntN(len(cs))]
+				d := 3 * rho * rng.Float64()
+				p.zeta = cusp + cmplx.Rect(d, 2*math.Pi*rng.Float64())
+				p.kind = "near cusp"
 			}
+			pts = append(pts, p)
 		}
 	}
 	return pts
+}
+
+// fsRefConfigs is the grid of configurations, ρ outermost and s
+// innermost (the order fixes the seeded draws of the reference table).
+func fsRefConfigs() (out []struct{ rho, q, s float64 }) {
+	for _, rho := range []float64{1e-4, 1e-3, 1e-2, 0.1} {
+		for _, q := range []float64{1e-5, 1e-3, 0.3, 1} {
+			for _, s := range []float64{0.5, 0.9, 1.0, 1.2, 2.5} {
+				out = append(out, struct{ rho, q, s float64 }{rho, q, s})
+			}
+		}
+	}
+	return out
 }
 
 // fsSwitchSet draws perConf points per configuration of the same grid between
@@ -212,16 +221,12 @@ func fsRefSet(perConf int, seed uint64) []fsRefPoint {
 func fsSwitchSet(perConf int, seed uint64) []fsRefPoint {
 	rng := rand.New(rand.NewPCG(seed, 13))
 	var pts []fsRefPoint
-	for _, rho := range []float64{1e-4, 1e-3, 1e-2, 0.1} {
-		for _, q := range []float64{1e-5, 1e-3, 0.3, 1} {
-			for _, s := range []float64{0.5, 0.9, 1.0, 1.2, 2.5} {
-				_, caus := fsCriticalPoints(Binary{S: s, Q: q}, 720)
-				for i := 0; i < perConf; i++ {
-					d := rho * (3 + 17*rng.Float64())
-					z := caus[rng.IntN(len(caus))] + cmplx.Rect(d, 2*math.Pi*rng.Float64())
-					pts = append(pts, fsRefPoint{s: s, q: q, rho: rho, zeta: z, kind: "off caustic"})
-				}
-			}
+	for _, c := range fsRefConfigs() {
+		_, caus := fsCriticalPoints(Binary{S: c.s, Q: c.q}, 720)
+		for i := 0; i < perConf; i++ {
+			d := c.rho * (3 + 17*rng.Float64())
+			z := caus[rng.IntN(len(caus))] + cmplx.Rect(d, 2*math.Pi*rng.Float64())
+			pts = append(pts, fsRefPoint{s: c.s, q: c.q, rho: c.rho, zeta: z, kind: "off caustic"})
 		}
 	}
 	return pts

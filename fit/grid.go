@@ -336,6 +336,17 @@ func MergeGrid(parts ...*GridResult) (*GridResult, error) {
 	return out, nil
 }
 
+// DoneNodes counts the nodes computed so far.
+func (g *GridResult) DoneNodes() int {
+	n := 0
+	for _, nd := range g.Nodes {
+		if nd.Done {
+			n++
+		}
+	}
+	return n
+}
+
 // Map returns the χ² map as Map()[iq][is], NaN where a node is not done.
 func (g *GridResult) Map() [][]float64 {
 	ns, nq := g.Settings.NS, g.Settings.NQ

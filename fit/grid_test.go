@@ -95,12 +95,7 @@ func TestGridCancelKeepsFinishedNodes(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	done := 0
-	for _, nd := range g.Nodes {
-		if nd.Done {
-			done++
-		}
-	}
+	done := g.DoneNodes()
 	if g.Status != fit.Cancelled || done != 3 {
 		t.Fatalf("status %v with %d nodes done, want cancelled with 3", g.Status, done)
 	}
@@ -202,12 +197,7 @@ func TestGridCancelWithCrossing(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	done := 0
-	for _, nd := range g.Nodes {
-		if nd.Done {
-			done++
-		}
-	}
+	done := g.DoneNodes()
 	if g.Status != fit.Cancelled || done != 2 || g.Crossing == nil {
 		t.Fatalf("status %v, %d nodes done, crossing %v: want cancelled after 2 nodes of a crossing grid", g.Status, done, g.Crossing != nil)
 	}

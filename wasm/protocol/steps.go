@@ -422,11 +422,7 @@ func stepGridMerge(_ context.Context, raw json.RawMessage, _ func(Progress)) (an
 	for _, row := range g.Map() {
 		out.Chi2 = append(out.Chi2, nums(row))
 	}
-	for _, nd := range g.Nodes {
-		if nd.Done {
-			out.Done++
-		}
-	}
+	out.Done = g.DoneNodes()
 	keep := in.Keep
 	if keep <= 0 {
 		keep = 6

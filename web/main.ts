@@ -1033,14 +1033,17 @@ function numberField(label: string, obj: Record<string, unknown>, key: string, i
   return el("label", {}, label + " ", i);
 }
 
-/** The grid's switch for the caustic-crossing seeds (fit.GridSettings.NoCrossing). */
-function crossingBox(set: Record<string, unknown>): HTMLElement {
-  const c = el("input", { type: "checkbox", name: "useCrossing", checked: !set.noCrossing });
+/**
+ * A checkbox for a setting named in the negative (noFinite, noPartners,
+ * noCrossing): ticked while obj[key] is false.
+ */
+function offSwitch(label: string, obj: Record<string, unknown>, key: string, id: StepId, name: string, title?: string): HTMLElement {
+  const c = el("input", { type: "checkbox", name, checked: !obj[key] });
   c.addEventListener("change", () => {
-    set.noCrossing = !c.checked;
-    changed("grid");
+    obj[key] = !c.checked;
+    changed(id);
   });
-  return el("label", { title: "When the single-lens residuals jump up and later down, the grid fits a point source without the data around the two jumps and adds trajectories that cross each caustic at the observed times." }, c, " use a caustic crossing read from the data");
+  return el("label", title ? { title } : {}, c, " " + label);
 }
 
 function renderSettings(id: StepId, body: HTMLElement, unavailable: boolean): void {
@@ -1056,16 +1059,10 @@ function renderSettings(id: StepId, body: HTMLElement, unavailable: boolean): vo
     return el("label", {}, "seed ", i);
   };
   switch (id) {
-    case "single": {
-      const c = el("input", { type: "checkbox", checked: !set.noFinite });
-      c.addEventListener("change", () => {
-        set.noFinite = !c.checked;
-        changed("single");
-      });
-      form.append(el("label", {}, c, " also try a finite source (ρ free)"));
+    case "single":
+      form.append(offSwitch("also try a finite source (ρ free)", set, "noFinite", id, "useFinite"));
       run = runSingle;
       break;
-    }
     case "grid":
       form.append(
         numberField("log s from", set, "logSMin", id, { step: 0.1 }),
@@ -1080,20 +1077,21 @@ function renderSettings(id: StepId, body: HTMLElement, unavailable: boolean): vo
         seedBox(),
         el("span", { class: "hint", text: `split across ${pool.size} worker${pool.size === 1 ? "" : "s"}` }),
         el("br"),
-        crossingBox(set),
+        offSwitch(
+          "use a caustic crossing read from the data",
+          set,
+          "noCrossing",
+          id,
+          "useCrossing",
+          "When the single-lens residuals jump up and later down, the grid fits a point source without the data around the two jumps and adds trajectories that cross each caustic at the observed times.",
+        ),
       );
       run = runGrid;
       break;
-    case "refine": {
-      const c = el("input", { type: "checkbox", checked: !set.noPartners });
-      c.addEventListener("change", () => {
-        set.noPartners = !c.checked;
-        changed("refine");
-      });
-      form.append(numberField("grid minima to refine", set, "keep", id, { min: 1 }, true), el("label", {}, c, " add degenerate partners (close/wide, mirror)"));
+    case "refine":
+      form.append(numberField("grid minima to refine", set, "keep", id, { min: 1 }, true), offSwitch("add degenerate partners (close/wide, mirror)", set, "noPartners", id, "usePartners"));
       run = () => runRefine();
       break;
-    }
     case "posterior": {
       const sols = steps.refine.result ? solutions() : [];
       const pick = el("select", { "aria-label": "solution" });

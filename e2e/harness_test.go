@@ -294,6 +294,26 @@ func (p *page) click(sel string) {
 	}
 }
 
+// press clicks a button and waits up to 10 s for started, a JS condition
+// that its action has begun (or ended). A click the page lost while it
+// re-rendered the button is pressed again, up to three presses, each logged.
+func (p *page) press(sel, started string) {
+	p.t.Helper()
+	for try := 1; ; try++ {
+		p.click(sel)
+		ctx, cancel := context.WithTimeout(p.ctx, 10*time.Second)
+		_, err := chromedp.Run(ctx, chromedp.Poll[bool](started, chromedp.WithPollingTimeout(10*time.Second), chromedp.WithPollingInterval(50*time.Millisecond)))
+		cancel()
+		if err == nil {
+			return
+		}
+		if try == 3 {
+			p.t.Fatalf("pressed %s three times, nothing started (%s): %v", sel, started, err)
+		}
+		p.t.Logf("pressed %s, nothing started within 10 s: pressing again", sel)
+	}
+}
+
 // setInput sets a form field as a user would (value, then a change event).
 func (p *page) setInput(sel string, v any) {
 	p.t.Helper()

@@ -92,7 +92,7 @@ func TestReportPanels(t *testing.T) {
 	p.setInput(`#physical-panel input[name=theta_star_err]`, 0.05)
 	p.setInput(`#physical-panel input[name=ds]`, 8)
 	p.setInput(`#physical-panel input[name=ds_err]`, 1)
-	p.click("#run-physical")
+	p.press("#run-physical", `!!document.querySelector("#physical-panel .progress, #physical-panel p[role=status]")`)
 	p.waitJS(`!!document.querySelector("#physical-panel .physical-table")`, 30*time.Second)
 	type cell struct {
 		Name, Median, Lower, Upper string
@@ -202,7 +202,7 @@ func TestReportPanels(t *testing.T) {
 	p.setInput(`#forecast-panel input[name=days]`, days)
 	p.setInput(`#forecast-panel input[name=draws]`, draws)
 	p.setInput(`#forecast-panel input[name=points]`, points)
-	p.click("#run-forecast")
+	p.press("#run-forecast", `!!document.querySelector("#forecast-panel .progress, #forecast-panel p[role=status]")`)
 	p.waitJS(`!!document.querySelector("#forecast-panel .forecast-table")`, 5*time.Minute)
 	if msg := p.eval(`document.querySelector("#forecast-panel p[role=status]").textContent`); !strings.HasPrefix(msg.(string), "Finished") {
 		t.Errorf("forecast: %v", msg)

@@ -295,8 +295,9 @@ func (p *page) click(sel string) {
 }
 
 // press clicks a button and waits up to 10 s for started, a JS condition
-// that its action has begun (or ended). A click the page lost while it
-// re-rendered the button is pressed again, up to three presses, each logged.
+// that its action has begun (or ended). A click the page lost (the button
+// re-rendered or moved between chromedp's query and its mouse event) is
+// pressed again, up to three presses, each logged.
 func (p *page) press(sel, started string) {
 	p.t.Helper()
 	for try := 1; ; try++ {
@@ -325,11 +326,14 @@ func (p *page) setInput(sel string, v any) {
 	}
 }
 
-// runStep clicks a step's Run button and waits for it to finish.
+// runStep clicks a step's Run button and waits for it to finish. The click
+// goes through press: a click lost to the page moving the button (a figure
+// above it drawn late) is pressed again.
 func (p *page) runStep(id string, timeout time.Duration) time.Duration {
 	p.t.Helper()
 	start := time.Now()
-	p.click("#run-" + id)
+	p.eval(fmt.Sprintf(`(window.lbBefore = lensbook.steps()[%q].result, window.lbBeforeMsg = lensbook.steps()[%q].message, true)`, id, id))
+	p.press("#run-"+id, fmt.Sprintf(`(() => { const s = lensbook.steps()[%q]; return s.status === "running" || s.result !== window.lbBefore || s.message !== window.lbBeforeMsg; })()`, id))
 	p.waitJS(fmt.Sprintf(`lensbook.steps()[%q].status !== "running"`, id), timeout)
 	d := time.Since(start)
 	st := p.eval(fmt.Sprintf(`lensbook.steps()[%q].status + ": " + (lensbook.steps()[%q].message || "")`, id, id)).(string)

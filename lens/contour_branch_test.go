@@ -163,9 +163,13 @@ func TestFoldJoin(t *testing.T) {
 // on the track of a pair of images that lives between two crossings θ1 < θ2,
 // z = A + B·√((θ − θ1)(θ2 − θ)) + Cθ, against the exact area by
 // Gauss–Legendre quadrature (gonum quad.Fixed) in φ with θ = θ1 +
-// (θ2 − θ1)·sin²φ, in which the integrand is analytic. The estimate must
-// cover the true error and be at most half the θ rule's (370× and 28×
-// below it on the intervals reaching toward a crossing).
+// (θ2 − θ1)·sin²φ, in which the integrand is analytic. Both rules'
+// estimates must cover their true errors (the θ rule's, from the quintic
+// Hermite area against the Taylor rule alone, fell just below it on
+// [1.001, 1.019]: 7.5e-6 against 7.6e-6, see ctSegment), and on the
+// intervals reaching toward a crossing the pair map's estimate must be at
+// most half the θ rule's (measured 2,500× and 36× below it; on the middle
+// interval, where the θ rule does well, the two are alike).
 func TestBranchPair(t *testing.T) {
 	A, B, C := complex(0.3, -0.2), complex(0.5, 1.1), complex(-0.1, 0.05)
 	const t1, t2 = 1.0, 1.02
@@ -202,7 +206,10 @@ func TestBranchPair(t *testing.T) {
 		if math.Abs(seg-ex) > est {
 			t.Errorf("[%g, %g]: error %.3g beyond the estimate %.3g", iv[0], iv[1], math.Abs(seg-ex), est)
 		}
-		if est > estT/2 {
+		if math.Abs(segT-ex) > estT {
+			t.Errorf("[%g, %g]: θ rule error %.3g beyond its estimate %.3g", iv[0], iv[1], math.Abs(segT-ex), estT)
+		}
+		if toward := iv[0]-t1 < (t2-t1)/10 || t2-iv[1] < (t2-t1)/10; toward && est > estT/2 {
 			t.Errorf("[%g, %g]: estimate %.3g not 2× below the θ rule's %.3g", iv[0], iv[1], est, estT)
 		}
 	}

@@ -465,10 +465,11 @@ func ctParity(r *fsRoots) {
 }
 
 // predict returns starting roots for the midpoint of the interval from a to
-// b (of length h), in the root order of a: the cubic Hermite midpoint
-// (za+zb)/2 + (ża−żb)h/8 on an image track, the mean of the two ends for
-// other matched roots, a's root where no match is known. Good starts halve
-// the Aberth sweeps of a boundary sample.
+// b (of length h), in the root order of a: the quintic Hermite midpoint
+// (za+zb)/2 + 5(ża−żb)h/32 + (z̈a+z̈b)h²/64 on an image track, the mean of
+// the two ends for other matched roots, a's root where no match is known.
+// Good starts halve the Aberth sweeps of a boundary sample, and decide
+// whether fsLens.track's Newton steps converge next to a critical curve.
 func (c *contour) predict(a, b *ctSample, h float64) [5]complex128 {
 	p := a.r.z
 	for k := 0; k < a.r.n; k++ {
@@ -478,7 +479,7 @@ func (c *contour) predict(a, b *ctSample, h float64) [5]complex128 {
 		}
 		zb := b.r.z[j]
 		if a.track&(1<<k) != 0 {
-			p[k] = (p[k]+zb)*0.5 + (a.dz[k]-b.dz[j])*complex(h/8, 0)
+			p[k] = (p[k]+zb)*0.5 + (a.dz[k]-b.dz[j])*complex(5*h/32, 0) + (a.d2z[k]+b.d2z[j])*complex(h*h/64, 0)
 		} else {
 			p[k] = (p[k] + zb) * 0.5
 		}

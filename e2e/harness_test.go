@@ -327,8 +327,9 @@ func (p *page) setInput(sel string, v any) {
 }
 
 // runStep clicks a step's Run button and waits for it to finish. The click
-// goes through press: a click lost to the page moving the button (a figure
-// above it drawn late) is pressed again.
+// goes through press: a click lost to the page moving the button (a step
+// above it re-rendered; the figures keep their space, TestFiguresKeepTheirSpace)
+// is pressed again.
 func (p *page) runStep(id string, timeout time.Duration) time.Duration {
 	p.t.Helper()
 	start := time.Now()

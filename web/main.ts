@@ -1397,8 +1397,7 @@ function zoomToAnomaly(): void {
 function renderPlots(): void {
   lc.render(plotInput());
   lc.setBands(curves ? forecastBands(forecast).bands : []);
-  const st = $("#plot-status");
-  st.textContent = datasets().length ? "" : "Add data (or load the demo event) to see the light curve.";
+  $("#plot-status").textContent = ""; // the empty plot says what to do (style.css)
   document.querySelectorAll<HTMLElement>(".swatch").forEach((s) => (s.style.background = PALETTE[Number(s.dataset.colour)]));
 }
 

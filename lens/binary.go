@@ -426,6 +426,19 @@ func aberth(c *[6]complex128, n int, roots *[5]complex128, maxSweeps int) (int, 
 // abs1 is |Re z| + |Im z|, a norm within √2 of |z|.
 func abs1(z complex128) float64 { return math.Abs(real(z)) + math.Abs(imag(z)) }
 
+// horner returns the polynomial c[0] + c[1]z + … + c[len(c)−1]z^(len(c)−1)
+// and its derivative at z (the Newton polishes of caustics.go and
+// finite_roots.go; aberth also carries a round-off bound and keeps its own
+// loop).
+func horner(c []complex128, z complex128) (p, dp complex128) {
+	p = c[len(c)-1]
+	for j := len(c) - 2; j >= 0; j-- {
+		dp = dp*z + p
+		p = p*z + c[j]
+	}
+	return p, dp
+}
+
 // select_ polishes each root on the lens equation, keeps the true images and
 // checks the set. It appends the images to dst and reports whether the set is
 // valid.

@@ -281,11 +281,7 @@ func (cq *critQuartic) solveAt(z complex128, phi float64) complex128 {
 	var c [6]complex128
 	cq.coeffs(phi, &c)
 	for it := 0; it < 30; it++ {
-		p, dp := c[4], complex(0, 0)
-		for j := 3; j >= 0; j-- {
-			dp = dp*z + p
-			p = p*z + c[j]
-		}
+		p, dp := horner(c[:5], z)
 		if dp == 0 {
 			break
 		}

@@ -357,18 +357,9 @@ func (l *fsLens) track(out *fsRoots, zeta complex128, pred *[5]complex128, imgs 
 	gh := [2]complex128{cdiv(w, q[2]), cdiv(q[0], w)}
 	// Polish on the full polynomial (the division carries the images'
 	// round-off into the quadratic).
-	for i := range gh {
-		z := gh[i]
-		for it := 0; it < 1; it++ {
-			p, dp := c[5], complex(0, 0)
-			for j := 4; j >= 0; j-- {
-				dp = dp*z + p
-				p = p*z + c[j]
-			}
-			if dp == 0 {
-				break
-			}
-			z -= cdiv(p, dp)
+	for i, z := range gh {
+		if p, dp := horner(c[:], z); dp != 0 {
+			z -= cdiv(p, dp) // one Newton step
 		}
 		gh[i] = z + co
 	}

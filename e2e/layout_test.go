@@ -20,12 +20,7 @@ func TestFiguresKeepTheirSpace(t *testing.T) {
 	p := newPage(t)
 	p.open("")
 	p.eval(`(window.lbFig = [], window.lbFigTimer = setInterval(() => window.lbFig.push(Math.round(document.querySelector(".figures").getBoundingClientRect().height)), 20), true)`)
-	uploadDemo(t, p)
-	p.runStep("single", 2*time.Minute)
-	smallGrid(p)
-	p.runStep("grid", 5*time.Minute)
-	p.setInput("#step-refine input[name=keep]", 3)
-	p.runStep("refine", 5*time.Minute)
+	refineDemo(t, p)
 	time.Sleep(300 * time.Millisecond) // a residual panel drawn in the next frame
 	var hs []float64
 	p.evalInto(`(clearInterval(window.lbFigTimer), window.lbFig)`, &hs)

@@ -204,6 +204,18 @@ func smallGrid(p *page) {
 	}
 }
 
+// refineDemo loads the demo event and runs the single-lens fit, the small
+// grid (smallGrid) and a refinement of its three best minima.
+func refineDemo(t *testing.T, p *page) {
+	t.Helper()
+	uploadDemo(t, p)
+	p.runStep("single", 2*time.Minute)
+	smallGrid(p)
+	p.runStep("grid", 5*time.Minute)
+	p.setInput("#step-refine input[name=keep]", 3)
+	p.runStep("refine", 5*time.Minute)
+}
+
 // TestDemoFlow is the whole notebook on the demo event: upload, single lens,
 // a small binary grid, refine, a short posterior, exports and the notebook
 // file; then the same requests replayed natively must agree with the browser.

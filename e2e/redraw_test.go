@@ -21,12 +21,7 @@ func TestRedrawWhileComputing(t *testing.T) {
 	}
 	p := newPage(t)
 	p.open("")
-	uploadDemo(t, p)
-	p.runStep("single", 2*time.Minute)
-	smallGrid(p)
-	p.runStep("grid", 5*time.Minute)
-	p.setInput("#step-refine input[name=keep]", 3)
-	p.runStep("refine", 5*time.Minute)
+	refineDemo(t, p)
 	n := int(p.eval(`document.querySelectorAll("#refine-table tr[data-solution]").length`).(float64))
 	if n < 2 {
 		t.Fatalf("need two refined solutions to switch between, have %d", n)

@@ -9,9 +9,12 @@ import (
 	"os"
 	"path/filepath"
 	"sort"
+	"strconv"
 	"strings"
 	"testing"
 	"time"
+
+	"lensbook/fit"
 )
 
 // Page budgets of the notebook issue (measured here, reported in the README).
@@ -204,6 +207,64 @@ func smallGrid(p *page) {
 	}
 }
 
+// checkQuotedValues: the refine table quotes each fitted parameter as its
+// error to two significant digits and the value to the same decimal place,
+// the same text as fit.FormatUncertain gives the LaTeX table (common
+// practice; before, t₀ showed as 10480.3 ± 2.1e-4), and the posterior table
+// gives t₀ as HJD′ with its median and errors at one decimal place (before:
+// the full JD to seven digits, 2460480, against errors of 2e-4 d).
+func checkQuotedValues(t *testing.T, p *page) {
+	t.Helper()
+	var cells []struct{ Param, Value, Text string }
+	p.evalInto(`Array.from(document.querySelectorAll("#refine-table td[data-param]")).map(e => ({Param: e.dataset.param, Value: e.dataset.value, Text: e.textContent}))`, &cells)
+	n := 0
+	for _, c := range cells {
+		v, e, ok := strings.Cut(c.Text, " ± ")
+		if !ok {
+			continue // fixed or without an error
+		}
+		raw, err1 := strconv.ParseFloat(c.Value, 64)
+		sg, err2 := strconv.ParseFloat(e, 64)
+		if err1 != nil || err2 != nil {
+			t.Errorf("refine %s: cell %q, value %q", c.Param, c.Text, c.Value)
+			continue
+		}
+		switch c.Param {
+		case "T0":
+			raw -= 2450000
+		case "Alpha":
+			raw *= 180 / math.Pi
+		}
+		want := strings.Replace(fit.FormatUncertain(raw, sg, sg, 2), ` \pm `, " ± ", 1)
+		if strings.Contains(want, `\times`) {
+			continue // the LaTeX table factors a power of ten out; the page does not
+		}
+		if got := v + " ± " + e; got != want {
+			t.Errorf("refine %s: the page quotes %q, fit.FormatUncertain %q", c.Param, got, want)
+		}
+		n++
+	}
+	if n < 5 {
+		t.Errorf("only %d refine cells with errors checked", n)
+	}
+	var t0 []string
+	p.evalInto(`Array.from(document.querySelectorAll("#posterior-table tr[data-param=t0] td")).map(e => e.textContent)`, &t0)
+	if len(t0) < 5 {
+		t.Fatalf("posterior t0 row: %q", t0)
+	}
+	dec := func(s string) int {
+		if _, f, ok := strings.Cut(s, "."); ok {
+			return len(f)
+		}
+		return 0
+	}
+	med, err := strconv.ParseFloat(t0[2], 64)
+	if err != nil || med < 1e4 || med > 2e4 || t0[1] != "HJD′" || dec(t0[2]) != dec(t0[3]) || dec(t0[2]) != dec(t0[4]) || dec(t0[2]) < 3 {
+		t.Errorf("posterior t0 row %q: want HJD′ with the median and both errors at one decimal place", t0)
+	}
+	t.Logf("quoted: %d refine cells as fit.FormatUncertain; posterior t0 %s −%s +%s %s", n, t0[2], t0[3], t0[4], t0[1])
+}
+
 // refineDemo loads the demo event and runs the single-lens fit, the small
 // grid (smallGrid) and a refinement of its three best minima.
 func refineDemo(t *testing.T, p *page) {
@@ -258,6 +319,7 @@ func TestDemoFlow(t *testing.T) {
 	p.setInput("#step-posterior input[name=walkers]", 16)
 	p.setInput("#step-posterior input[name=steps]", 150)
 	p.runStep("posterior", 5*time.Minute)
+	checkQuotedValues(t, p)
 	p.screenshot(filepath.Join(t.TempDir(), "flow.png"))
 	if path := os.Getenv("LENSBOOK_SCREENSHOT"); path != "" {
 		// the README picture: light curve with the model, and the steps

@@ -49,6 +49,31 @@ export function fmt(x: number, n = 5): string {
   return Number(x.toPrecision(n)).toString();
 }
 
+/**
+ * Formats a value and its 1σ errors as they are quoted (common practice): the
+ * smaller error rounded to two significant digits, the value and the errors to
+ * that decimal place, as fit.FormatUncertain does for the LaTeX table. Without a
+ * usable error the value gets six significant digits and the errors come back
+ * empty.
+ */
+export function fmtUncertain(x: number, ...errs: (number | null | undefined)[]): { value: string; errs: string[] } {
+  const ok = errs.filter((e): e is number => e !== null && e !== undefined && e > 0 && Number.isFinite(e));
+  if (!Number.isFinite(x) || ok.length === 0 || ok.length !== errs.length) return { value: fmt(x, 6), errs: errs.map(() => "") };
+  const e = Number(Math.min(...ok).toPrecision(2)); // 0.0996 → 0.10 sets the place
+  const dec = 1 - Math.floor(Math.log10(e));
+  if (dec > 10 || Math.abs(x) >= 1e7) {
+    // far from unity: matching mantissas
+    const k = Math.max(0, Math.floor(Math.log10(Math.abs(x))) + dec);
+    return { value: x.toExponential(k), errs: ok.map((v) => v.toExponential(1)) };
+  }
+  const at = (v: number) => {
+    if (dec < 0) return String(Math.round(v / 10 ** -dec) * 10 ** -dec);
+    const t = v.toFixed(dec);
+    return /^-[0.]*$/.test(t) ? t.slice(1) : t; // no "-0.00"
+  };
+  return { value: at(x), errs: ok.map(at) };
+}
+
 export function fmtDuration(ms: number): string {
   if (!Number.isFinite(ms) || ms < 0) return "—";
   const s = Math.round(ms / 1000);

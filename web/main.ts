@@ -10,7 +10,7 @@
 // starting point"). The view mounts in <section id="map-panel">.
 
 import "./style.css";
-import { $, clear, download, el, fmt, fmtDuration } from "./dom";
+import { $, clear, download, el, fmt, fmtDuration, fmtUncertain } from "./dom";
 import { EnginePool, type Job } from "./engine";
 import { exportPNG, exportSVG, figureBox, PALETTE, SOLUTION_COLOURS } from "./figures";
 import { causticsFigure, chi2MapFigure, cornerFigure, lightCurveFigure, type CausticsData } from "./plots";
@@ -1126,7 +1126,8 @@ function paramCell(sol: Solution, k: keyof Params): HTMLElement {
     v *= RAD;
     if (sg !== undefined) sg *= RAD;
   }
-  const text = sg !== undefined && sg !== null && Number.isFinite(sg) ? `${fmt(v, 6)} ± ${fmt(sg, 2)}` : fi >= 0 || k === "T0" || k === "U0" || k === "TE" ? fmt(v, 6) : `${fmt(v, 6)} (fixed)`;
+  const u = fmtUncertain(v, sg);
+  const text = u.errs[0] ? `${u.value} ± ${u.errs[0]}` : fi >= 0 || k === "T0" || k === "U0" || k === "TE" ? fmt(v, 6) : `${fmt(v, 6)} (fixed)`;
   return el("td", { "data-param": k, "data-value": String(sol.params[k]), text });
 }
 
@@ -1233,7 +1234,12 @@ function renderOutputs(id: StepId, body: HTMLElement): void {
         for (const p of m.params) {
           const lo = p.median !== null && p.lower !== null ? p.median - p.lower : null;
           const hi = p.median !== null && p.upper !== null ? p.upper - p.median : null;
-          tbl.append(el("tr", { "data-param": p.name }, ...[PARAM_LABELS[p.name] ?? p.name, p.unit, f(p.median, 7), f(lo, 2), f(hi, 2), f(p.tau), f(p.ess), f(p.rhat, 4)].map((t) => el("td", { text: t }))));
+          // t₀ as HJD′ like every other time on the page; median and errors
+          // to the decimal place of the smaller error
+          const hjd = p.name === "t0" && p.median !== null && p.median > 2e6;
+          const u = p.median === null ? { value: "—", errs: ["", ""] } : fmtUncertain(hjd ? p.median - TIME_OFFSET : p.median, lo, hi);
+          const [ls, hs] = u.errs[0] ? u.errs : [f(lo, 2), f(hi, 2)];
+          tbl.append(el("tr", { "data-param": p.name }, ...[PARAM_LABELS[p.name] ?? p.name, hjd ? "HJD′" : p.unit, u.value, ls, hs, f(p.tau), f(p.ess), f(p.rhat, 4)].map((t) => el("td", { text: t }))));
         }
         out.append(tbl, el("p", { class: "hint", text: `${m.steps} ensemble steps · ${m.samples} kept samples · acceptance ${f(m.acceptance)} · best χ² ${f(m.best_chi2, 7)}` }));
         if (m.corner?.names?.length)

@@ -40,19 +40,59 @@ export function svg<K extends keyof SVGElementTagNameMap>(tag: K, attrs: Record<
 /** Round tick values covering [lo, hi], about n of them. */
 export function ticks(lo: number, hi: number, n = 5): number[] {
   if (!(hi > lo)) return [lo];
-  const raw = (hi - lo) / n;
-  const p = Math.pow(10, Math.floor(Math.log10(raw)));
-  const step = [1, 2, 2.5, 5, 10].map((m) => m * p).find((s) => s >= raw) ?? raw;
+  const step = tickStep(lo, hi, n);
   const out: number[] = [];
   for (let v = Math.ceil(lo / step) * step; v <= hi + step * 1e-9; v += step) out.push(Math.abs(v) < step * 1e-9 ? 0 : v);
   return out;
 }
 
-function tickLabel(v: number): string {
-  const a = Math.abs(v);
-  if (a !== 0 && (a < 1e-3 || a >= 1e6)) return v.toExponential(1);
-  return String(Number(v.toPrecision(6)));
+/** The tick spacing of ticks(): 1, 2, 2.5 or 5 times a power of ten. */
+function tickStep(lo: number, hi: number, n: number): number {
+  const raw = (hi - lo) / n;
+  const p = Math.pow(10, Math.floor(Math.log10(raw)));
+  return [1, 2, 2.5, 5, 10].map((m) => m * p).find((s) => s >= raw) ?? raw;
 }
+
+/**
+ * Tick labels of one axis: as many decimals as the spacing needs, so that
+ * neighbouring ticks never print alike (2460480.2996 and 2460480.2998 did as
+ * "2.5e+6"), and an offset taken out when the values need more than five
+ * significant digits beyond the spacing: the ticks then read as differences
+ * and the axis label carries "− offset".
+ */
+function tickLabels(lo: number, hi: number, n: number): { ticks: number[]; label: (v: number) => string; offset: number; offsetText: string } {
+  if (!(hi > lo)) return { ticks: [lo], label: (v) => String(Number(v.toPrecision(6))), offset: 0, offsetText: "" };
+  const step = tickStep(lo, hi, n);
+  let offset = 0;
+  let offsetText = "";
+  const mid = (lo + hi) / 2;
+  if (Math.abs(mid) / step >= 1e5) {
+    const big = Math.pow(10, Math.ceil(Math.log10(hi - lo)));
+    offset = Math.round(mid / big) * big;
+    offsetText = offset.toFixed(Math.max(0, -Math.round(Math.log10(big))));
+  }
+  const ts = ticks(lo - offset, hi - offset, n);
+  const e = Math.floor(Math.log10(step) + 1e-9);
+  const extra = Math.abs(step / Math.pow(10, e) - 2.5) < 1e-6 ? 1 : 0;
+  const largest = Math.max(...ts.map(Math.abs));
+  if (largest >= 1e6 || (largest > 0 && largest < 1e-4)) {
+    const k = Math.max(0, Math.floor(Math.log10(largest)) - e + extra);
+    return { ticks: ts.map((t) => t + offset), label: (v) => (v === offset ? "0" : (v - offset).toExponential(k)), offset, offsetText };
+  }
+  const dec = Math.min(20, Math.max(0, extra - e));
+  return {
+    ticks: ts.map((t) => t + offset),
+    label: (v) => {
+      const t = (v - offset).toFixed(dec);
+      return /^-[0.]*$/.test(t) ? t.slice(1) : t;
+    },
+    offset,
+    offsetText,
+  };
+}
+
+// Estimated width of a tick-label character at the figures' 11 px font.
+const CHAR_PX = 6.2;
 
 export interface Axis {
   lo: number;
@@ -84,31 +124,48 @@ export class Panel {
     this.plot = svg("g", { "clip-path": `url(#${clipId})` });
     this.g.append(this.plot, frame);
     const font = { "font-family": "system-ui, sans-serif", "font-size": 11, fill: INK };
+    // as many ticks (up to five) as leave the labels room: across, each label's
+    // estimated width plus a gap; up, a line each. Small panels (a corner
+    // plot's cells) get fewer ticks instead of overprinted labels.
+    const fits = (n: number, room: number, across: boolean) => {
+      const t = tickLabels(xaOr(across).lo, xaOr(across).hi, n);
+      const need = across ? t.ticks.reduce((a, v) => a + t.label(v).length * CHAR_PX + 8, 0) : t.ticks.length * 16;
+      return need <= room ? t : undefined;
+    };
+    const xaOr = (across: boolean) => (across ? xa : { lo: Math.min(ya.lo, ya.hi), hi: Math.max(ya.lo, ya.hi) });
+    const pick = (room: number, across: boolean) => fits(5, room, across) ?? fits(4, room, across) ?? fits(3, room, across) ?? fits(2, room, across) ?? tickLabels(xaOr(across).lo, xaOr(across).hi, 1);
+    const xt = pick(w, true);
+    const yt = pick(h, false);
+    // an axis whose ticks read as differences needs its label to say from what
+    const withOffset = (label: string, t: { offsetText: string }) => (t.offsetText ? `${label} − ${t.offsetText}` : label);
     if (opts.xTicks !== false)
-      for (const t of ticks(xa.lo, xa.hi)) {
+      for (const t of xt.ticks) {
         const x = this.x(t);
         this.g.append(svg("line", { x1: x, x2: x, y1: top + h, y2: top + h + 4, stroke: MUTED }));
         const tx = svg("text", { ...font, x, y: top + h + 16, "text-anchor": "middle" });
-        tx.textContent = tickLabel(t);
+        tx.textContent = xt.label(t);
         this.g.append(tx);
       }
     if (opts.yTicks !== false)
-      for (const t of ticks(Math.min(ya.lo, ya.hi), Math.max(ya.lo, ya.hi))) {
+      for (const t of yt.ticks) {
         const y = this.y(t);
         this.g.append(svg("line", { x1: left - 4, x2: left, y1: y, y2: y, stroke: MUTED }));
         const ty = svg("text", { ...font, x: left - 6, y: y + 4, "text-anchor": "end" });
-        ty.textContent = tickLabel(t);
+        ty.textContent = yt.label(t);
         this.g.append(ty);
       }
     if (opts.xLabel !== false && xa.label) {
       const l = svg("text", { ...font, x: left + w / 2, y: top + h + 32, "text-anchor": "middle" });
-      l.textContent = xa.label;
+      l.textContent = withOffset(xa.label, xt);
       this.g.append(l);
     }
     if (opts.yLabel !== false && ya.label) {
       const cy = top + h / 2;
-      const l = svg("text", { ...font, x: left - 44, y: cy, "text-anchor": "middle", transform: `rotate(-90 ${left - 44} ${cy})` });
-      l.textContent = ya.label;
+      // left of the widest tick label (44 px in most figures), inside the figure
+      const widest = opts.yTicks !== false ? Math.max(0, ...yt.ticks.map((t) => yt.label(t).length)) * CHAR_PX : 0;
+      const lx = Math.max(8, Math.min(left - 44, left - 16 - widest));
+      const l = svg("text", { ...font, x: lx, y: cy, "text-anchor": "middle", transform: `rotate(-90 ${lx} ${cy})` });
+      l.textContent = withOffset(ya.label, yt);
       this.g.append(l);
     }
   }

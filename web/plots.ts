@@ -125,7 +125,7 @@ export function causticsFigure(cs: CausticsData[]): SVGSVGElement {
 export function cornerFigure(c: Corner): SVGSVGElement {
   const n = c.names.length;
   const cell = n > 5 ? 90 : 120;
-  const pad = 60;
+  const pad = 72;
   const W = pad + n * cell + 20;
   const H = pad + n * cell + 10;
   const root = newFigure(W, H, "Posterior corner plot");

@@ -265,6 +265,32 @@ func checkQuotedValues(t *testing.T, p *page) {
 	t.Logf("quoted: %d refine cells as fit.FormatUncertain; posterior t0 %s −%s +%s %s", n, t0[2], t0[3], t0[4], t0[1])
 }
 
+// checkFigureText: no two texts of a step's figures (tick labels, axis
+// labels) overprint each other. The corner plot printed every t0 tick as
+// "2.5e+6" on top of its neighbours and its small cells ran labels together.
+func checkFigureText(t *testing.T, p *page) {
+	t.Helper()
+	var clashes []string
+	p.evalInto(`(() => {
+		const out = [];
+		let n = 0;
+		for (const fig of document.querySelectorAll(".step figure svg")) {
+			const boxes = Array.from(fig.querySelectorAll("text")).filter(e => e.textContent.trim()).map(e => ({t: e.textContent, r: e.getBoundingClientRect()}));
+			n += boxes.length;
+			for (let i = 0; i < boxes.length; i++) for (let j = i + 1; j < boxes.length; j++) {
+				const a = boxes[i].r, b = boxes[j].r;
+				const w = Math.min(a.right, b.right) - Math.max(a.left, b.left), h = Math.min(a.bottom, b.bottom) - Math.max(a.top, b.top);
+				if (w > 1 && h > 1) out.push((fig.querySelector("title") || {}).textContent + ": " + JSON.stringify(boxes[i].t) + " over " + JSON.stringify(boxes[j].t));
+			}
+		}
+		if (n < 50) out.push("only " + n + " texts in the step figures");
+		return out;
+	})()`, &clashes)
+	for _, c := range clashes {
+		t.Errorf("figure text overprinted: %s", c)
+	}
+}
+
 // refineDemo loads the demo event and runs the single-lens fit, the small
 // grid (smallGrid) and a refinement of its three best minima.
 func refineDemo(t *testing.T, p *page) {
@@ -320,6 +346,7 @@ func TestDemoFlow(t *testing.T) {
 	p.setInput("#step-posterior input[name=steps]", 150)
 	p.runStep("posterior", 5*time.Minute)
 	checkQuotedValues(t, p)
+	checkFigureText(t, p)
 	p.screenshot(filepath.Join(t.TempDir(), "flow.png"))
 	if path := os.Getenv("LENSBOOK_SCREENSHOT"); path != "" {
 		// the README picture: light curve with the model, and the steps

@@ -347,6 +347,16 @@ func TestDemoFlow(t *testing.T) {
 	p.runStep("posterior", 5*time.Minute)
 	checkQuotedValues(t, p)
 	checkFigureText(t, p)
+	// a short run does not converge: the page lists why, naming each
+	// parameter (it said "parameter 0", "parameter 1", … in one run-on line)
+	var why []string
+	p.evalInto(`Array.from(document.querySelectorAll("#step-posterior .not-converged li")).map(e => e.textContent)`, &why)
+	for _, w := range why {
+		if strings.HasPrefix(w, "parameter ") {
+			t.Errorf("a convergence reason does not name its parameter: %q", w)
+		}
+	}
+	t.Logf("%d convergence reasons listed, first %q", len(why), append(why, "")[0])
 	p.screenshot(filepath.Join(t.TempDir(), "flow.png"))
 	if path := os.Getenv("LENSBOOK_SCREENSHOT"); path != "" {
 		// the README picture: light curve with the model, and the steps

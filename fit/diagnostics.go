@@ -125,23 +125,23 @@ func diagnose(c *Chain, withRHat bool) Diagnostics {
 		d.Tau[p], d.TauRelErr[p], d.TauSettled[p] = e.Tau*float64(c.Thin), e.RelErr, e.Settled
 		d.ESS[p] = float64(c.Walkers*d.Kept) / e.Tau
 		if !e.Settled {
-			reasons = append(reasons, fmt.Sprintf("parameter %d: autocorrelation window never settled (Sokal's criterion unmet): τ ≥ %.3g steps is a lower bound", p, e.Tau*float64(c.Thin)))
+			reasons = append(reasons, fmt.Sprintf("%s: autocorrelation window never settled (Sokal's criterion unmet): τ ≥ %.3g steps is a lower bound", c.paramName(p), e.Tau*float64(c.Thin)))
 		}
 		if float64(d.Kept) < set.MinTauMultiple*e.Tau || math.IsNaN(e.Tau) {
 			d.lengthOK = false
-			reasons = append(reasons, fmt.Sprintf("parameter %d: chain after burn-in is %d steps, shorter than %g τ = %.4g steps", p, d.Kept*c.Thin, set.MinTauMultiple, set.MinTauMultiple*e.Tau*float64(c.Thin)))
+			reasons = append(reasons, fmt.Sprintf("%s: chain after burn-in is %d steps, shorter than %g τ = %.4g steps", c.paramName(p), d.Kept*c.Thin, set.MinTauMultiple, set.MinTauMultiple*e.Tau*float64(c.Thin)))
 		}
 		d.RHatLimit[p] = max(set.MaxRHat, math.Sqrt(1+2*e.Tau/float64(d.Kept/2)))
 		if withRHat {
 			d.RHat[p] = SplitRHat(series)
 			if d.RHat[p] > d.RHatLimit[p] {
-				reasons = append(reasons, fmt.Sprintf("parameter %d: split-R̂ = %.4f exceeds %.4g", p, d.RHat[p], d.RHatLimit[p]))
+				reasons = append(reasons, fmt.Sprintf("%s: split-R̂ = %.4f exceeds %.4g", c.paramName(p), d.RHat[p], d.RHatLimit[p]))
 			}
 		} else {
 			d.RHat[p] = math.NaN()
 		}
 		if set.TargetESS > 0 && d.ESS[p] < set.TargetESS {
-			reasons = append(reasons, fmt.Sprintf("parameter %d: %.0f effective samples, fewer than the %g asked", p, d.ESS[p], set.TargetESS))
+			reasons = append(reasons, fmt.Sprintf("%s: %.0f effective samples, fewer than the %g asked", c.paramName(p), d.ESS[p], set.TargetESS))
 		}
 	}
 	if d.StuckWalkers > 0 && c.Steps >= 200 {
@@ -150,6 +150,14 @@ func diagnose(c *Chain, withRHat bool) Diagnostics {
 	d.Reasons = reasons
 	d.Converged = len(reasons) == 0
 	return d
+}
+
+// paramName names parameter p in the diagnostics' messages.
+func (c *Chain) paramName(p int) string {
+	if p < len(c.Names) && c.Names[p] != "" {
+		return c.Names[p]
+	}
+	return fmt.Sprintf("parameter %d", p)
 }
 
 // stuckWalkers counts walkers with acceptance below a fifth of the median.

@@ -145,6 +145,7 @@ var ErrEnsemble = errors.New("fit: ensemble sampler")
 // A draw where the density is not finite is redrawn (up to 1000 times).
 type Start struct {
 	Name   string    // label of the mode (e.g. "close, u0>0")
+	Names  []string  // parameter names for the diagnostics' messages (optional: "parameter k" otherwise)
 	X      []float64 // centre of the initial ball
 	Spread []float64 // 1σ of the ball per parameter, > 0
 	// Cov, when non-nil, shapes the ball instead: walkers are drawn from
@@ -200,6 +201,7 @@ type Progress struct {
 // exports stay bit-exact.
 type Chain struct {
 	Mode     string           // Start.Name
+	Names    []string         // Start.Names
 	Dim      int              // number of parameters
 	Walkers  int              // ensemble size
 	Thin     int              // stored every Thin-th step
@@ -360,7 +362,7 @@ func runEnsemble(ctx context.Context, set EnsembleSettings, t Target, st Start, 
 	half := W / 2
 	capSteps := set.Steps / set.Thin
 	c := &Chain{
-		Mode: st.Name, Dim: dim, Walkers: W, Thin: set.Thin,
+		Mode: st.Name, Names: st.Names, Dim: dim, Walkers: W, Thin: set.Thin,
 		X:        make([]float64, 0, capSteps*W*dim),
 		LogP:     make([]float64, 0, capSteps*W),
 		Accepted: make([]int, W),

@@ -234,6 +234,30 @@ func TestEnsembleDeterministic(t *testing.T) {
 	}
 }
 
+// TestDiagnosticsNameParameters: an unconverged chain's reasons name each
+// parameter as Start.Names gives it (the page showed "parameter 0", "parameter
+// 1", … to astronomers), and fall back to "parameter k" without names.
+func TestDiagnosticsNameParameters(t *testing.T) {
+	for _, names := range [][]string{{"x", "y"}, nil} {
+		c, err := RunEnsemble(context.Background(), EnsembleSettings{Steps: 60, Seed: 3}, Target{LogDensity: rosenbrock},
+			Start{Names: names, X: []float64{1, 1}, Spread: []float64{0.1, 0.1}}, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		why := strings.Join(c.Diagnostics.Reasons, "; ")
+		if c.Diagnostics.Converged || why == "" {
+			t.Fatalf("a 60-step chain converged: %q", why)
+		}
+		want, not := "x: ", "parameter 0"
+		if names == nil {
+			want, not = "parameter 0: ", "x: "
+		}
+		if !strings.Contains(why, want) || strings.Contains(why, not) {
+			t.Errorf("names %q: reasons %q, want %q and no %q", names, why, want, not)
+		}
+	}
+}
+
 func TestEnsembleCancel(t *testing.T) {
 	ctx, cancel := context.WithCancel(context.Background())
 	defer cancel()

@@ -224,12 +224,13 @@ func SamplePosterior(ctx context.Context, ev *Event, sols []*Solution, set Poste
 				return res, fmt.Errorf("fit: mode %d (%s): %w", m, sol.Label, err)
 			}
 		}
-		st := Start{Name: sol.Label, X: sp.Vector(nil, sol.Params), Spread: initialSpread(sp, sol, scale), Cov: initialCov(sp, sol, scale)}
+		names := CoordNames(sp)
+		st := Start{Name: sol.Label, Names: names, X: sp.Vector(nil, sol.Params), Spread: initialSpread(sp, sol, scale), Cov: initialCov(sp, sol, scale)}
 		c, err := runEnsemble(ctx, set.Ensemble, post.Target(), st, m, progress)
 		if err != nil {
 			return res, fmt.Errorf("fit: mode %d (%s): %w", m, sol.Label, err)
 		}
-		raw, err := c.Samples(CoordNames(sp), nil)
+		raw, err := c.Samples(names, nil)
 		if err != nil {
 			return res, err
 		}

@@ -1227,7 +1227,8 @@ function renderOutputs(id: StepId, body: HTMLElement): void {
       if (r.cancelled) out.append(el("p", { class: "warn", text: "Cancelled: the summaries use the steps taken so far." }));
       for (const m of r.modes) {
         out.append(el("h4", { text: m.label }));
-        out.append(el("p", { class: m.converged ? "message" : "warn", text: m.converged ? "Converged by the chain diagnostics." : "Not converged: " + (m.reasons ?? []).join("; ") }));
+        if (m.converged) out.append(el("p", { class: "message", text: "Converged by the chain diagnostics." }));
+        else out.append(el("div", { class: "warn not-converged" }, el("p", { text: "Not converged (run more steps, or read these numbers as provisional):" }), el("ul", {}, ...(m.reasons ?? []).map((r) => el("li", { text: r })))));
         const tbl = el("table", { class: "results", id: "posterior-table" });
         tbl.append(el("tr", {}, ...["parameter", "unit", "median", "−1σ", "+1σ", "τ (steps)", "ESS", "R̂"].map((h) => el("th", { text: h }))));
         const f = (x: number | null, n = 3) => (x === null ? "—" : fmt(x, n));

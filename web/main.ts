@@ -1127,7 +1127,9 @@ function paramCell(sol: Solution, k: keyof Params): HTMLElement {
     if (sg !== undefined) sg *= RAD;
   }
   const u = fmtUncertain(v, sg);
-  const text = u.errs[0] ? `${u.value} ± ${u.errs[0]}` : fi >= 0 || k === "T0" || k === "U0" || k === "TE" ? fmt(v, 6) : `${fmt(v, 6)} (fixed)`;
+  // without an error, t₀ to 1e-5 d (six significant digits of an HJD′ are 0.1 d)
+  const bare = k === "T0" ? v.toFixed(5) : fmt(v, 6);
+  const text = u.errs[0] ? `${u.value} ± ${u.errs[0]}` : fi >= 0 || k === "T0" || k === "U0" || k === "TE" ? bare : `${bare} (fixed)`;
   return el("td", { "data-param": k, "data-value": String(sol.params[k]), text });
 }
 

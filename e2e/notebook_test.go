@@ -311,6 +311,11 @@ func TestDemoFlow(t *testing.T) {
 	p := newPage(t)
 	p.open("")
 	uploadDemo(t, p)
+	// each dataset row shows its colour on the plots (the swatches were
+	// coloured only by a later plot redraw, so a fresh table showed none)
+	if n := p.eval(`(() => { const s = Array.from(document.querySelectorAll("#step-data .swatch")); return s.length === lensbook.current().datasets.length && s.every(e => getComputedStyle(e).backgroundColor !== "rgba(0, 0, 0, 0)") ? s.length : -1; })()`); n != 3.0 {
+		t.Errorf("dataset colour swatches: %v, want 3 coloured", n)
+	}
 	p.runStep("single", 2*time.Minute)
 	smallGrid(p)
 	longTasks(p)

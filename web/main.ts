@@ -630,7 +630,7 @@ function renderData(body: HTMLElement): void {
     tbl.append(el("tr", {}, ...["", "name", "band", "time system", "zero point", "limb dark. u", "points", "masked", "excluded lines", ""].map((h) => el("th", { text: h }))));
     ds.forEach((d, k) => {
       const field = (key: "name" | "band" | "time_system" | "zero_point" | "ld", numeric: boolean) => {
-        const i = el("input", { value: String(d[key] ?? ""), "aria-label": `${key} of dataset ${k + 1}`, size: numeric ? 6 : 10 });
+        const i = el("input", { value: String(d[key] ?? ""), "aria-label": `${key} of dataset ${k + 1}`, size: key === "name" ? 28 : numeric ? 6 : 10 });
         i.addEventListener("change", () => {
           const v = numeric ? Number(i.value) : i.value;
           if (numeric && !Number.isFinite(v)) {
@@ -656,11 +656,15 @@ function renderData(body: HTMLElement): void {
       del.addEventListener("click", () => void edit("edit", { dataset: k, field: "remove", value: null }));
       const unmask = el("button", { class: "small", text: "Unmask", disabled: masked === 0 });
       unmask.addEventListener("click", () => void edit("mask", { unmask: true, dataset: k, t1: 0, t2: 0, m1: 0, m2: 0, solution: null }, "Unmasked."));
+      // the dataset's colour on the plots, set through the CSSOM (the page's
+      // content security policy refuses inline style attributes)
+      const swatch = el("span", { class: "swatch", title: `colour of ${d.name} on the plots` });
+      swatch.style.background = PALETTE[k % PALETTE.length];
       tbl.append(
         el(
           "tr",
           {},
-          el("td", {}, el("span", { class: "swatch", "data-colour": String(k % PALETTE.length) })),
+          el("td", {}, swatch),
           field("name", false),
           field("band", false),
           field("time_system", false),
@@ -1407,7 +1411,6 @@ function renderPlots(): void {
   lc.render(plotInput());
   lc.setBands(curves ? forecastBands(forecast).bands : []);
   $("#plot-status").textContent = ""; // the empty plot says what to do (style.css)
-  document.querySelectorAll<HTMLElement>(".swatch").forEach((s) => (s.style.background = PALETTE[Number(s.dataset.colour)]));
 }
 
 // ---------- hook for the map view and the tests ----------

@@ -36,6 +36,13 @@ func TestMapViewOnNotebook(t *testing.T) {
 				t.Fatalf("map mode %v, want %v", got, mode)
 			}
 			p.waitJS(`window.lensMapPanel.frame.contentWindow.lensMapView.stats().mapDone`, 60*time.Second)
+			// the open map fits beside the light curve in a 1280 px window
+			// (in a 2/5 column it overflowed the page by ~110 px)
+			var fit struct{ Page, View, PanelRight, MainRight float64 }
+			p.evalInto(`({Page: document.documentElement.scrollWidth, View: document.documentElement.clientWidth, PanelRight: Math.max(...Array.from(document.querySelectorAll("#map-panel > *, #map-panel .mv-legend, #map-panel .mv-frame")).map(e => e.getBoundingClientRect().right)), MainRight: document.querySelector("main").getBoundingClientRect().right})`, &fit)
+			if fit.Page > fit.View || fit.PanelRight > fit.MainRight {
+				t.Errorf("the open map overflows: page %.0f px wide in a %.0f px view, the map's content ends at %.0f px, the notebook at %.0f px", fit.Page, fit.View, fit.PanelRight, fit.MainRight)
+			}
 			chi0 := p.eval(`window.lensMapPanel.latest.chi2`).(float64)
 			u00 := p.eval(`window.lensMapPanel.latest.model.u0`).(float64)
 

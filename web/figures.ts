@@ -127,15 +127,16 @@ export class Panel {
     // as many ticks (up to five) as leave the labels room: across, each label's
     // estimated width plus a gap; up, a line each. Small panels (a corner
     // plot's cells) get fewer ticks instead of overprinted labels.
-    const fits = (n: number, room: number, across: boolean) => {
-      const t = tickLabels(xaOr(across).lo, xaOr(across).hi, n);
-      const need = across ? t.ticks.reduce((a, v) => a + t.label(v).length * CHAR_PX + 8, 0) : t.ticks.length * 16;
-      return need <= room ? t : undefined;
+    const pick = (lo: number, hi: number, room: number, across: boolean) => {
+      for (let n = 5; n >= 2; n--) {
+        const t = tickLabels(lo, hi, n);
+        const need = across ? t.ticks.reduce((a, v) => a + t.label(v).length * CHAR_PX + 8, 0) : t.ticks.length * 16;
+        if (need <= room) return t;
+      }
+      return tickLabels(lo, hi, 1);
     };
-    const xaOr = (across: boolean) => (across ? xa : { lo: Math.min(ya.lo, ya.hi), hi: Math.max(ya.lo, ya.hi) });
-    const pick = (room: number, across: boolean) => fits(5, room, across) ?? fits(4, room, across) ?? fits(3, room, across) ?? fits(2, room, across) ?? tickLabels(xaOr(across).lo, xaOr(across).hi, 1);
-    const xt = pick(w, true);
-    const yt = pick(h, false);
+    const xt = pick(xa.lo, xa.hi, w, true);
+    const yt = pick(Math.min(ya.lo, ya.hi), Math.max(ya.lo, ya.hi), h, false);
     // an axis whose ticks read as differences needs its label to say from what
     const withOffset = (label: string, t: { offsetText: string }) => (t.offsetText ? `${label} − ${t.offsetText}` : label);
     if (opts.xTicks !== false)

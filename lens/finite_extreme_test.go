@@ -7,7 +7,9 @@ import (
 
 // TestExtremeSourceSizes: FiniteMag at tol 1e-3 for the largest and the
 // smallest sources the trade meets, against the image-plane brute force
-// (finite_imageplane_test.go, asked for 2e-5): ρ = 1 and 0.5 centred on the
+// (finite_imageplane_test.go, asked for 2e-5; itself checked against the
+// exact disk values of references.md §2b/§2c and gonum quadrature by
+// TestImagePlaneSingleLens and TestDiskPolyQuadrature): ρ = 1 and 0.5 centred on the
 // lens axis and off it, disks that cover every caustic of the lens (the
 // resonant caustic of equal masses, the central and planetary caustics of
 // q = 1e-3 at s = 1.2 and of q = 0.1 at s = 0.8), and ρ = 1e-5 within 2ρ of

@@ -630,7 +630,7 @@ function renderData(body: HTMLElement): void {
     tbl.append(el("tr", {}, ...["", "name", "band", "time system", "zero point", "limb dark. u", "points", "masked", "excluded lines", ""].map((h) => el("th", { text: h }))));
     ds.forEach((d, k) => {
       const field = (key: "name" | "band" | "time_system" | "zero_point" | "ld", numeric: boolean) => {
-        const i = el("input", { value: String(d[key] ?? ""), "aria-label": `${key} of dataset ${k + 1}`, size: key === "name" ? 28 : numeric ? 6 : 10 });
+        const i = el("input", { value: String(d[key] ?? ""), "aria-label": `${key} of dataset ${k + 1}`, size: key === "name" ? 24 : numeric ? 5 : 8 });
         i.addEventListener("change", () => {
           const v = numeric ? Number(i.value) : i.value;
           if (numeric && !Number.isFinite(v)) {
@@ -1133,8 +1133,14 @@ function paramCell(sol: Solution, k: keyof Params): HTMLElement {
   const u = fmtUncertain(v, sg);
   // without an error, t₀ to 1e-5 d (six significant digits of an HJD′ are 0.1 d)
   const bare = k === "T0" ? v.toFixed(5) : fmt(v, 6);
-  const text = u.errs[0] ? `${u.value} ± ${u.errs[0]}` : fi >= 0 || k === "T0" || k === "U0" || k === "TE" ? bare : `${bare} (fixed)`;
+  const text = u.errs[0] ? `${u.value} ±\u00a0${u.errs[0]}` : fi >= 0 || k === "T0" || k === "U0" || k === "TE" ? bare : `${bare} (fixed)`;
   return el("td", { "data-param": k, "data-value": String(sol.params[k]), text });
+}
+
+/** Δχ² to two decimals at most: differences below 0.005 (1e-11 between a
+ * solution and its numerically identical partner) print as 0. */
+function fmtDeltaChi2(d: number): string {
+  return Math.abs(d) < 0.005 ? "0" : Math.abs(d) < 100 ? String(Number(d.toFixed(2))) : fmt(d, 4);
 }
 
 function solutionTable(sols: Solution[], keys: (keyof Params)[], id: string, selectable: boolean): HTMLElement {
@@ -1144,7 +1150,7 @@ function solutionTable(sols: Solution[], keys: (keyof Params)[], id: string, sel
   sols.forEach((s, i) => {
     const tr = el("tr", { "data-solution": i, class: selectable && i === selected ? "selected" : "" }, el("td", { text: s.label }));
     for (const k of keys) tr.append(paramCell(s, k));
-    tr.append(el("td", { text: fmt(s.chi2, 7) }), el("td", { text: fmt(s.chi2 - best, 4) }), el("td", { text: String(s.dof) }));
+    tr.append(el("td", { text: fmt(s.chi2, 7) }), el("td", { text: fmtDeltaChi2(s.chi2 - best) }), el("td", { text: String(s.dof) }));
     if (selectable)
       tr.addEventListener("click", () => {
         selected = i;
@@ -1211,7 +1217,7 @@ function renderOutputs(id: StepId, body: HTMLElement): void {
         const best = r.minima[0].chi2;
         const tbl = el("table", { class: "results", id: "grid-table" });
         tbl.append(el("tr", {}, ...["minimum", "log s", "log q", "s", "q", "χ²", "Δχ²"].map((h) => el("th", { text: h }))));
-        r.minima.forEach((m, i) => tbl.append(el("tr", {}, ...[String(i + 1), fmt(m.logS, 4), fmt(m.logQ, 4), fmt(Math.pow(10, m.logS), 4), fmt(Math.pow(10, m.logQ), 3), fmt(m.chi2, 7), fmt(m.chi2 - best, 4)].map((t) => el("td", { text: t })))));
+        r.minima.forEach((m, i) => tbl.append(el("tr", {}, ...[String(i + 1), fmt(m.logS, 4), fmt(m.logQ, 4), fmt(Math.pow(10, m.logS), 4), fmt(Math.pow(10, m.logQ), 3), fmt(m.chi2, 7), fmtDeltaChi2(m.chi2 - best)].map((t) => el("td", { text: t })))));
         out.append(tbl);
       }
       break;

@@ -66,12 +66,14 @@ export function fmtUncertain(x: number, ...errs: (number | null | undefined)[]):
     const k = Math.max(0, Math.floor(Math.log10(Math.abs(x))) + dec);
     return { value: x.toExponential(k), errs: ok.map((v) => v.toExponential(1)) };
   }
-  const at = (v: number) => {
-    if (dec < 0) return String(Math.round(v / 10 ** -dec) * 10 ** -dec);
-    const t = v.toFixed(dec);
-    return /^-[0.]*$/.test(t) ? t.slice(1) : t; // no "-0.00"
-  };
+  const at = (v: number) => (dec < 0 ? String(Math.round(v / 10 ** -dec) * 10 ** -dec) : fixed(v, dec));
   return { value: at(x), errs: ok.map(at) };
+}
+
+/** x with dec decimals (0 ≤ dec ≤ 20), never "-0.00". */
+export function fixed(x: number, dec: number): string {
+  const t = x.toFixed(dec);
+  return /^-[0.]*$/.test(t) ? t.slice(1) : t;
 }
 
 export function fmtDuration(ms: number): string {

@@ -3,7 +3,7 @@
 // on the page and exported (as .svg, or rasterised to .png), so what the user
 // sees is what they save. Only numbers computed by the engine are drawn here.
 
-import { download, el } from "./dom";
+import { download, el, fixed } from "./dom";
 
 const NS = "http://www.w3.org/2000/svg";
 
@@ -60,8 +60,8 @@ function tickStep(lo: number, hi: number, n: number): number {
  * significant digits beyond the spacing: the ticks then read as differences
  * and the axis label carries "− offset".
  */
-function tickLabels(lo: number, hi: number, n: number): { ticks: number[]; label: (v: number) => string; offset: number; offsetText: string } {
-  if (!(hi > lo)) return { ticks: [lo], label: (v) => String(Number(v.toPrecision(6))), offset: 0, offsetText: "" };
+function tickLabels(lo: number, hi: number, n: number): { ticks: number[]; label: (v: number) => string; offsetText: string } {
+  if (!(hi > lo)) return { ticks: [lo], label: (v) => String(Number(v.toPrecision(6))), offsetText: "" };
   const step = tickStep(lo, hi, n);
   let offset = 0;
   let offsetText = "";
@@ -77,18 +77,10 @@ function tickLabels(lo: number, hi: number, n: number): { ticks: number[]; label
   const largest = Math.max(...ts.map(Math.abs));
   if (largest >= 1e6 || (largest > 0 && largest < 1e-4)) {
     const k = Math.max(0, Math.floor(Math.log10(largest)) - e + extra);
-    return { ticks: ts.map((t) => t + offset), label: (v) => (v === offset ? "0" : (v - offset).toExponential(k)), offset, offsetText };
+    return { ticks: ts.map((t) => t + offset), label: (v) => (v === offset ? "0" : (v - offset).toExponential(k)), offsetText };
   }
   const dec = Math.min(20, Math.max(0, extra - e));
-  return {
-    ticks: ts.map((t) => t + offset),
-    label: (v) => {
-      const t = (v - offset).toFixed(dec);
-      return /^-[0.]*$/.test(t) ? t.slice(1) : t;
-    },
-    offset,
-    offsetText,
-  };
+  return { ticks: ts.map((t) => t + offset), label: (v) => fixed(v - offset, dec), offsetText };
 }
 
 // Estimated width of a tick-label character at the figures' 11 px font.
